@@ -1,0 +1,107 @@
+//! The command line: clap definitions and one module per subcommand.
+//!
+//! Each subcommand module owns its `Args` (clap) and a `run(Args)` function
+//! returning [`CliResult`]. Exit codes: 0 success, 1 bad input (any error a
+//! subcommand returns), 2 usage error (clap).
+
+use clap::{Parser, Subcommand};
+use std::process::ExitCode;
+
+pub mod advise;
+pub mod check;
+pub mod dash;
+pub mod input;
+pub mod odds;
+pub mod plan;
+pub mod record;
+pub mod replay;
+pub mod report;
+pub mod simulate;
+pub mod start;
+pub mod timeline;
+pub mod watch;
+
+/// What a subcommand returns; an error is printed and exits 1.
+pub type CliResult = anyhow::Result<()>;
+
+const EXIT_CODES: &str = "\
+Exit codes:
+  0  success
+  1  bad input (an invalid file, log or event; the error names file, line, field)
+  2  usage error (unknown command or flag)
+
+Decision support only: the odds are only as good as the ratings. The plan never
+replaces the incident commander's judgement, the command structure, local
+procedures, codes and standards, or personnel accountability. Life safety first.";
+
+/// Risk-adaptive re-tasking of response units during an emergency incident.
+#[derive(Debug, Parser)]
+#[command(name = "oddsboard", version, about, after_help = EXIT_CODES)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Validate an incident file or a log.
+    Check(check::Args),
+    /// Odds of the placement on the ground, per task and trait, with regime.
+    Odds(odds::Args),
+    /// Recommend a placement: moves, odds before → after, baselines.
+    Plan(plan::Args),
+    /// Monte Carlo of the placement: success rates beside the model's odds.
+    Simulate(simulate::Args),
+    /// Create a log whose first record is the incident in FILE.
+    Start(start::Args),
+    /// Append one event (or one per line from stdin) to a log.
+    Record(record::Args),
+    /// The commander's interactive dashboard.
+    Dash(dash::Args),
+    /// Read-only dashboard that follows a live log.
+    Watch(watch::Args),
+    /// Replay a saved log step by step.
+    Replay(replay::Args),
+    /// One row per log record with the odds after it.
+    Timeline(timeline::Args),
+    /// After-action report (Markdown) of a log.
+    Report(report::Args),
+    /// Fragile units, resource requests and life-safety notes.
+    Advise(advise::Args),
+}
+
+/// Entry point of the binary.
+pub fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            let code = if e.use_stderr() { 2 } else { 0 };
+            let _ = e.print();
+            return ExitCode::from(code);
+        }
+    };
+    match run(cli.command) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("error: {e:#}");
+            ExitCode::from(1)
+        }
+    }
+}
+
+pub fn run(command: Command) -> CliResult {
+    match command {
+        Command::Check(a) => check::run(a),
+        Command::Odds(a) => odds::run(a),
+        Command::Plan(a) => plan::run(a),
+        Command::Simulate(a) => simulate::run(a),
+        Command::Start(a) => start::run(a),
+        Command::Record(a) => record::run(a),
+        Command::Dash(a) => dash::run(a),
+        Command::Watch(a) => watch::run(a),
+        Command::Replay(a) => replay::run(a),
+        Command::Timeline(a) => timeline::run(a),
+        Command::Report(a) => report::run(a),
+        Command::Advise(a) => advise::run(a),
+    }
+}

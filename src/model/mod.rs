@@ -1,0 +1,312 @@
+//! Domain types of an incident: traits, unit types, units, tasks, the
+//! placement on the ground and the commander's pins.
+//!
+//! Everything here is index-based for speed: a [`Unit`] refers to its
+//! [`UnitType`] by position in [`Incident::unit_types`], a task need refers to a
+//! trait by position in [`Incident::traits`], and a [`Placement`] maps unit
+//! positions to task positions. Ids (the strings of the incident file) are kept
+//! for display and for the file and log formats.
+//!
+//! The file format itself lives in [`file`] (serde mirror types) and is turned
+//! into these types by [`load`] after validation.
+//!
+//! Invariant: this module does no terminal I/O and reads files only through
+//! [`load`].
+
+pub mod file;
+pub mod load;
+pub mod locate;
+
+pub use load::{Diagnostic, LoadError, load_incident_file, parse_incident_str};
+
+use std::collections::BTreeMap;
+
+/// Index of a trait in [`Incident::traits`].
+pub type TraitIdx = usize;
+/// Index of a unit type in [`Incident::unit_types`].
+pub type TypeIdx = usize;
+/// Index of a unit in [`Incident::units`].
+pub type UnitIdx = usize;
+/// Index of a task in [`Incident::tasks`].
+pub type TaskIdx = usize;
+
+/// A capability dimension, e.g. water delivery in L/min.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TraitDef {
+    pub id: String,
+    pub label: String,
+    /// Unit of measure shown beside every amount of this trait.
+    pub unit: String,
+}
+
+/// An uncertain capability: `Normal(mean, sd²)`. `sd == 0` is a certain value.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Rating {
+    pub mean: f64,
+    pub sd: f64,
+}
+
+/// A kind of response unit with default ratings.
+#[derive(Debug, Clone, PartialEq)]
+pub struct UnitType {
+    pub id: String,
+    pub label: String,
+    /// Within-type correlation in [0, 1]; default 0 (independent units).
+    pub rho: f64,
+    /// Default rating per trait, indexed by [`TraitIdx`]; a trait the file
+    /// leaves out is `Rating { mean: 0, sd: 0 }`.
+    pub ratings: Vec<Rating>,
+    /// Optional cost of requesting one more unit of this type (for advice);
+    /// `None` means "count units".
+    pub cost: Option<f64>,
+}
+
+/// Whether a unit can be placed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum UnitStatus {
+    #[default]
+    Available,
+    OutOfService,
+}
+
+impl UnitStatus {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            UnitStatus::Available => "available",
+            UnitStatus::OutOfService => "out_of_service",
+        }
+    }
+}
+
+/// One response unit on the roster.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Unit {
+    pub id: String,
+    pub type_idx: TypeIdx,
+    /// Resolved rating per trait (type default with the unit's overrides
+    /// applied), indexed by [`TraitIdx`].
+    pub ratings: Vec<Rating>,
+    pub status: UnitStatus,
+}
+
+/// Priority tier of a task, in the order the trade uses.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Default)]
+pub enum Tier {
+    Life,
+    Stabilization,
+    #[default]
+    Property,
+}
+
+impl Tier {
+    /// All tiers, highest priority first.
+    pub const ALL: [Tier; 3] = [Tier::Life, Tier::Stabilization, Tier::Property];
+
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Tier::Life => "life",
+            Tier::Stabilization => "stabilization",
+            Tier::Property => "property",
+        }
+    }
+
+    /// Position in [`Tier::ALL`].
+    pub fn index(self) -> usize {
+        self as usize
+    }
+
+    pub fn parse(s: &str) -> Option<Tier> {
+        match s {
+            "life" => Some(Tier::Life),
+            "stabilization" => Some(Tier::Stabilization),
+            "property" => Some(Tier::Property),
+            _ => None,
+        }
+    }
+}
+
+/// Secure level per tier: odds above it no longer outrank lower tiers.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SecureLevels {
+    /// Indexed by [`Tier::index`].
+    pub levels: [f64; 3],
+}
+
+impl Default for SecureLevels {
+    /// life 0.99, stabilization 0.95, property 0.90.
+    fn default() -> Self {
+        SecureLevels {
+            levels: [0.99, 0.95, 0.90],
+        }
+    }
+}
+
+impl SecureLevels {
+    pub fn get(&self, tier: Tier) -> f64 {
+        self.levels[tier.index()]
+    }
+}
+
+/// A task's need in one trait: at least `need`, itself uncertain with `sd`.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Need {
+    pub need: f64,
+    pub sd: f64,
+}
+
+impl Need {
+    /// Traits whose need is 0 and that have no need sd do not count.
+    pub fn counts(&self) -> bool {
+        self.need > 0.0 || self.sd > 0.0
+    }
+}
+
+/// How a closed task turned out.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Outcome {
+    Succeeded,
+    Failed,
+    Cancelled,
+}
+
+impl Outcome {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Outcome::Succeeded => "succeeded",
+            Outcome::Failed => "failed",
+            Outcome::Cancelled => "cancelled",
+        }
+    }
+    pub fn parse(s: &str) -> Option<Outcome> {
+        match s {
+            "succeeded" => Some(Outcome::Succeeded),
+            "failed" => Some(Outcome::Failed),
+            "cancelled" => Some(Outcome::Cancelled),
+            _ => None,
+        }
+    }
+}
+
+/// A task on the board.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Task {
+    pub id: String,
+    pub label: String,
+    pub tier: Tier,
+    /// Need per trait, indexed by [`TraitIdx`]; a trait the file leaves out
+    /// has `Need { need: 0, sd: 0 }` and does not count.
+    pub needs: Vec<Need>,
+    /// Unit types this task accepts; `None` means every type.
+    pub accepts: Option<Vec<TypeIdx>>,
+    pub min_units: Option<u32>,
+    pub max_units: Option<u32>,
+    /// `Some` once the task is closed; a closed task takes no units and does
+    /// not count in the objective.
+    pub outcome: Option<Outcome>,
+}
+
+impl Task {
+    pub fn is_open(&self) -> bool {
+        self.outcome.is_none()
+    }
+    pub fn accepts_type(&self, t: TypeIdx) -> bool {
+        self.accepts.as_ref().is_none_or(|a| a.contains(&t))
+    }
+}
+
+/// Where each unit is: `Some(task)` or `None` (reserve). Indexed by
+/// [`UnitIdx`]; always as long as [`Incident::units`].
+#[derive(Debug, Clone, PartialEq, Eq, Default, Hash, PartialOrd, Ord)]
+pub struct Placement(pub Vec<Option<TaskIdx>>);
+
+impl Placement {
+    pub fn all_reserve(n_units: usize) -> Self {
+        Placement(vec![None; n_units])
+    }
+    pub fn get(&self, u: UnitIdx) -> Option<TaskIdx> {
+        self.0.get(u).copied().flatten()
+    }
+    pub fn set(&mut self, u: UnitIdx, t: Option<TaskIdx>) {
+        self.0[u] = t;
+    }
+    pub fn len(&self) -> usize {
+        self.0.len()
+    }
+    pub fn is_empty(&self) -> bool {
+        self.0.is_empty()
+    }
+    /// Units placed on task `t`, in roster order.
+    pub fn units_on(&self, t: TaskIdx) -> impl Iterator<Item = UnitIdx> + '_ {
+        self.0
+            .iter()
+            .enumerate()
+            .filter_map(move |(u, p)| (*p == Some(t)).then_some(u))
+    }
+    /// Number of units whose position differs between the two placements.
+    pub fn moves_from(&self, other: &Placement) -> usize {
+        self.0.iter().zip(&other.0).filter(|(a, b)| a != b).count()
+    }
+}
+
+/// A whole incident: the roster, the board, the ground and the pins.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Incident {
+    pub name: String,
+    /// RFC 3339 start time, as written in the file.
+    pub started: Option<String>,
+    /// Keep at least this many available units in reserve.
+    pub reserve_min: u32,
+    pub secure: SecureLevels,
+    pub traits: Vec<TraitDef>,
+    pub unit_types: Vec<UnitType>,
+    pub units: Vec<Unit>,
+    pub tasks: Vec<Task>,
+    /// What is on the ground now.
+    pub placement: Placement,
+    /// Units that must stay on (or go to) a task: the commander's word.
+    pub pins: BTreeMap<UnitIdx, TaskIdx>,
+}
+
+impl Incident {
+    pub fn trait_idx(&self, id: &str) -> Option<TraitIdx> {
+        self.traits.iter().position(|t| t.id == id)
+    }
+    pub fn type_idx(&self, id: &str) -> Option<TypeIdx> {
+        self.unit_types.iter().position(|t| t.id == id)
+    }
+    pub fn unit_idx(&self, id: &str) -> Option<UnitIdx> {
+        self.units.iter().position(|u| u.id == id)
+    }
+    pub fn task_idx(&self, id: &str) -> Option<TaskIdx> {
+        self.tasks.iter().position(|t| t.id == id)
+    }
+    pub fn rho_of_unit(&self, u: UnitIdx) -> f64 {
+        self.unit_types[self.units[u].type_idx].rho
+    }
+    /// Can unit `u` be placed on task `t` at all (status, open task, accepts)?
+    /// Counts (`max_units`, `reserve_min`) and pins are checked elsewhere.
+    pub fn may_place(&self, u: UnitIdx, t: TaskIdx) -> bool {
+        let unit = &self.units[u];
+        let task = &self.tasks[t];
+        unit.status == UnitStatus::Available && task.is_open() && task.accepts_type(unit.type_idx)
+    }
+
+    /// Removes a unit from the roster (lost), keeping placement and pins
+    /// aligned with the shifted unit indices.
+    pub fn remove_unit(&mut self, u: UnitIdx) {
+        self.units.remove(u);
+        self.placement.0.remove(u);
+        self.pins = std::mem::take(&mut self.pins)
+            .into_iter()
+            .filter(|(pu, _)| *pu != u)
+            .map(|(pu, t)| (if pu > u { pu - 1 } else { pu }, t))
+            .collect();
+    }
+
+    /// Adds a unit to the roster, in reserve.
+    pub fn add_unit(&mut self, unit: Unit) -> UnitIdx {
+        self.units.push(unit);
+        self.placement.0.push(None);
+        self.units.len() - 1
+    }
+}

@@ -1,0 +1,1 @@
+//! Monte Carlo of a placement (TODO(odds)).
