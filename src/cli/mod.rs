@@ -10,6 +10,7 @@ use std::process::ExitCode;
 pub mod advise;
 pub mod check;
 pub mod dash;
+pub mod generate;
 pub mod input;
 pub mod odds;
 pub mod plan;
@@ -68,6 +69,9 @@ pub enum Command {
     Report(report::Args),
     /// Fragile units, resource requests and life-safety notes.
     Advise(advise::Args),
+    /// Write a seeded, invented incident of a given size (benchmarks, tests).
+    #[command(hide = true)]
+    Generate(generate::Args),
 }
 
 /// Entry point of the binary.
@@ -103,5 +107,6 @@ pub fn run(command: Command) -> CliResult {
         Command::Timeline(a) => timeline::run(a),
         Command::Report(a) => report::run(a),
         Command::Advise(a) => advise::run(a),
+        Command::Generate(a) => generate::run(a),
     }
 }
