@@ -48,7 +48,9 @@ fn odds_table_shows_tiers_regimes_margins_and_the_caution() {
         // 3800 L/min placed against 4250 needed.
         .stdout(predicate::str::contains("\u{2212}450 L/min short"))
         .stdout(predicate::str::contains("worst in life: RESCUE"))
-        .stdout(predicate::str::contains("life-safety task in the gamble regime"))
+        .stdout(predicate::str::contains(
+            "life-safety task in the gamble regime",
+        ))
         .stdout(predicate::str::contains("no units placed"))
         .stdout(predicate::str::contains("Caution: Decision support only."))
         .stdout(predicate::str::contains("· crew"));
