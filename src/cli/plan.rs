@@ -115,6 +115,29 @@ fn move_views(incident: &Incident, moves: &[Move]) -> Vec<MoveView> {
         .collect()
 }
 
+/// Odds shown from a plain probability.
+fn pct(p: f64) -> String {
+    format_odds(
+        p,
+        (p > 0.0).then(|| p.ln()),
+        (p < 1.0).then(|| (-p).ln_1p()),
+    )
+}
+
+/// The worst task's odds, shown from its own ln values (deep tails too).
+fn worst_cell(tasks: &[TaskView]) -> String {
+    tasks
+        .iter()
+        .min_by(|a, b| {
+            let l = |t: &TaskView| t.ln_odds.unwrap_or(f64::NEG_INFINITY);
+            l(a).total_cmp(&l(b))
+        })
+        .map_or_else(
+            || "-".to_string(),
+            |t| format!("{} ({})", format_odds(t.odds, t.ln_odds, t.ln_fail), t.id),
+        )
+}
+
 fn min_odds(tasks: &[TaskView]) -> f64 {
     tasks.iter().map(|t| t.odds).fold(1.0, f64::min)
 }
@@ -278,7 +301,7 @@ pub fn run(args: Args) -> CliResult {
         match report.upper_bound {
             Some(b) => format!(
                 "best found, not proven; no plan can lift the worst odds above {}",
-                format_odds(b, Some(b.ln()), None)
+                pct(b)
             ),
             None => "best found, not proven".to_string(),
         }
@@ -345,8 +368,8 @@ pub fn run(args: Args) -> CliResult {
     }
     out.push_str(&format!(
         "\n  Worst odds: {} → {}\n\n",
-        format_odds(min_odds(&before), None, None),
-        format_odds(min_odds(&after), None, None)
+        worst_cell(&before),
+        worst_cell(&after)
     ));
 
     if let Some(rows) = &compare {
@@ -370,15 +393,15 @@ pub fn run(args: Args) -> CliResult {
             let tier = |t: &str| {
                 r.worst_by_tier
                     .get(t)
-                    .map_or_else(|| "-".to_string(), |p| format_odds(*p, None, None))
+                    .map_or_else(|| "-".to_string(), |p| pct(*p))
             };
             cols.push(vec![
                 r.name.clone(),
                 tier("life"),
                 tier("stabilization"),
                 tier("property"),
-                format_odds(r.min_odds, None, None),
-                format_odds(r.all_tasks_odds, None, None),
+                pct(r.min_odds),
+                pct(r.all_tasks_odds),
                 format!("{}/{}", r.regimes.hedge, r.regimes.gamble),
                 r.moves.to_string(),
                 format!("{:.1}", r.solve_ms),
