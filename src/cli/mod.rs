@@ -15,6 +15,7 @@ pub mod input;
 pub mod odds;
 pub mod plan;
 pub mod record;
+pub mod render;
 pub mod replay;
 pub mod report;
 pub mod simulate;

@@ -13,6 +13,7 @@
 
 pub mod normal;
 pub mod simulate;
+pub mod view;
 
 pub use normal::{ln_phi, ln_phi_complement, phi};
 
@@ -60,6 +61,9 @@ pub struct TraitOdds {
     pub trait_idx: usize,
     /// Aggregate mean capability.
     pub mean: f64,
+    /// Standard deviation of the units' aggregate capability alone (with
+    /// within-type correlation), without the need's sd.
+    pub unit_sd: f64,
     /// Standard deviation of (capability − need): units' spread with
     /// correlation, plus the need's own sd.
     pub sd: f64,
@@ -86,7 +90,8 @@ impl TraitOdds {
 /// Odds of one trait given aggregate mean, the units' variance and the need.
 /// Where the total variance is 0 the odds are 1 if mean ≥ need, else 0.
 pub fn trait_odds(trait_idx: usize, mean: f64, unit_var: f64, need: Need) -> TraitOdds {
-    let var = unit_var.max(0.0) + need.sd * need.sd;
+    let unit_var = unit_var.max(0.0);
+    let var = unit_var + need.sd * need.sd;
     let sd = var.sqrt();
     let diff = mean - need.need;
     let (z, ln_odds, ln_fail) = if var > 0.0 {
@@ -100,6 +105,7 @@ pub fn trait_odds(trait_idx: usize, mean: f64, unit_var: f64, need: Need) -> Tra
     TraitOdds {
         trait_idx,
         mean,
+        unit_sd: unit_var.sqrt(),
         sd,
         need: need.need,
         need_sd: need.sd,

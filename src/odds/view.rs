@@ -1,0 +1,309 @@
+//! Serializable readings of the odds, shaped like the `tasks` entries of
+//! `odds --json` (SPEC §5). Every command and screen that shows task odds
+//! builds them here, so the JSON of `odds`, `plan` and `timeline` agree.
+//!
+//! Main types:
+//! * [`TaskView`]: one open task: odds, ln odds, regime, binding trait, z,
+//!   margin in the trait's own unit, units, per-trait detail.
+//! * [`OddsView`]: the whole `odds --json` document.
+//!
+//! JSON has no infinities: a value that is ±∞ in the model is written as
+//! `null` (e.g. `ln_odds` of a task whose odds are exactly 0, or `z` of a
+//! trait whose spread is 0).
+//!
+//! Invariant: pure; builds values from an incident and a placement, never
+//! prints.
+
+use super::{ForcedZero, Regime, TaskOdds, TraitOdds, evaluate_task};
+use crate::model::{Incident, Placement, Tier};
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+/// One trait of one task.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TraitView {
+    /// Trait id.
+    #[serde(rename = "trait")]
+    pub trait_id: String,
+    /// Unit of measure of the trait.
+    pub unit: String,
+    /// Aggregate mean capability of the units on the task.
+    pub mean: f64,
+    /// Standard deviation of the units' aggregate (within-type correlation
+    /// included, need sd excluded).
+    pub sd: f64,
+    pub need: f64,
+    /// The need's own standard deviation (0 = certain need).
+    pub need_sd: f64,
+    /// mean − need: surplus (positive) or shortfall (negative).
+    pub margin: f64,
+    pub odds: f64,
+    /// `null` when the odds are exactly 0.
+    pub ln_odds: Option<f64>,
+    /// ln(1 − odds); `null` when the trait is certain to be met.
+    pub ln_fail: Option<f64>,
+    /// (mean − need)/√(sd² + need_sd²); `null` when the total spread is 0.
+    pub z: Option<f64>,
+}
+
+/// One open task, as in SPEC §5 `tasks`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TaskView {
+    pub id: String,
+    pub label: String,
+    /// `life`, `stabilization` or `property`.
+    pub tier: &'static str,
+    /// Probability that every need is met.
+    pub odds: f64,
+    /// ln odds; `null` when the odds are exactly 0.
+    pub ln_odds: Option<f64>,
+    /// ln(1 − odds); `null` when the task is certain to succeed.
+    pub ln_fail: Option<f64>,
+    /// `hedge`, `gamble`, or `null` when no need counts.
+    pub regime: Option<&'static str>,
+    /// The trait with the lowest odds; `null` when no need counts.
+    pub binding_trait: Option<String>,
+    /// z on the binding trait; `null` when infinite (no spread, or forced 0).
+    pub z: Option<f64>,
+    /// Surplus (positive) or shortfall (negative) of the binding trait, in
+    /// its own unit; `null` when no need counts.
+    pub margin: Option<f64>,
+    /// Unit of measure of the binding trait.
+    pub unit: Option<String>,
+    /// Ids of the units on the task, in roster order.
+    pub units: Vec<String>,
+    /// Counting traits (need > 0 or need sd > 0), in trait order.
+    pub traits: Vec<TraitView>,
+    /// `no_units` or `below_minimum` when the odds are forced to 0.
+    pub forced_zero: Option<&'static str>,
+}
+
+impl TaskView {
+    /// Tier of the task as the model type.
+    pub fn tier(&self) -> Tier {
+        Tier::parse(self.tier).unwrap_or_default()
+    }
+    /// The binding trait's detail, if any need counts.
+    pub fn binding(&self) -> Option<&TraitView> {
+        let id = self.binding_trait.as_deref()?;
+        self.traits.iter().find(|t| t.trait_id == id)
+    }
+}
+
+/// Worst odds of one tier.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TierWorst {
+    pub tier: &'static str,
+    /// Id of the task with the lowest odds in the tier.
+    pub task: String,
+    pub odds: f64,
+    pub ln_odds: Option<f64>,
+    /// The tier's secure level (odds above it no longer outrank lower tiers).
+    pub secure: f64,
+}
+
+/// The `odds --json` document.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct OddsView {
+    /// Incident name.
+    pub incident: String,
+    /// Every unit id → task id, or `null` for reserve.
+    pub placement: BTreeMap<String, Option<String>>,
+    /// Open tasks in board order.
+    pub tasks: Vec<TaskView>,
+    /// Lowest odds over open tasks (1 when there are none).
+    pub min_odds: f64,
+    /// ln of `min_odds`; `null` when it is exactly 0.
+    pub min_ln_odds: Option<f64>,
+    /// Worst task per tier, highest tier first; tiers without open tasks
+    /// are left out.
+    pub worst_by_tier: Vec<TierWorst>,
+    /// The standing safety caution.
+    pub caution: &'static str,
+}
+
+/// The standing caution every screen and report carries (SPEC §8).
+pub const SAFETY_CAUTION: &str = "Decision support only. The odds are only as good as the \
+ratings and assume the stated independence (units of different types, and traits, vary \
+independently). They never replace the incident commander's judgement, the command \
+structure, local operating procedures, the applicable codes and standards, or \
+personnel accountability. Life safety first.";
+
+fn finite(x: f64) -> Option<f64> {
+    x.is_finite().then_some(x)
+}
+
+fn trait_view(incident: &Incident, t: &TraitOdds) -> TraitView {
+    let def = &incident.traits[t.trait_idx];
+    TraitView {
+        trait_id: def.id.clone(),
+        unit: def.unit.clone(),
+        mean: t.mean,
+        sd: t.unit_sd,
+        need: t.need,
+        need_sd: t.need_sd,
+        margin: t.margin(),
+        odds: t.odds(),
+        ln_odds: finite(t.ln_odds),
+        ln_fail: finite(t.ln_fail),
+        z: finite(t.z),
+    }
+}
+
+impl ForcedZero {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            ForcedZero::NoUnits => "no_units",
+            ForcedZero::BelowMinimum => "below_minimum",
+        }
+    }
+}
+
+/// Builds the view of one task reading.
+pub fn task_view(incident: &Incident, odds: &TaskOdds) -> TaskView {
+    let task = &incident.tasks[odds.task_idx];
+    let binding = odds.binding_trait();
+    TaskView {
+        id: task.id.clone(),
+        label: task.label.clone(),
+        tier: task.tier.as_str(),
+        odds: odds.odds(),
+        ln_odds: finite(odds.ln_odds),
+        ln_fail: finite(odds.ln_fail),
+        regime: odds.regime().map(Regime::as_str),
+        binding_trait: binding.map(|b| incident.traits[b.trait_idx].id.clone()),
+        z: finite(odds.z()),
+        margin: binding.map(TraitOdds::margin),
+        unit: binding.map(|b| incident.traits[b.trait_idx].unit.clone()),
+        units: odds
+            .units
+            .iter()
+            .map(|&u| incident.units[u].id.clone())
+            .collect(),
+        traits: odds
+            .traits
+            .iter()
+            .map(|t| trait_view(incident, t))
+            .collect(),
+        forced_zero: odds.forced_zero.map(ForcedZero::as_str),
+    }
+}
+
+/// Views of every open task for `placement`, in board order.
+pub fn task_views(incident: &Incident, placement: &Placement) -> Vec<TaskView> {
+    (0..incident.tasks.len())
+        .filter(|&t| incident.tasks[t].is_open())
+        .map(|t| task_view(incident, &evaluate_task(incident, placement, t)))
+        .collect()
+}
+
+/// Every unit id → the id of its task, or `None` (reserve).
+pub fn placement_view(
+    incident: &Incident,
+    placement: &Placement,
+) -> BTreeMap<String, Option<String>> {
+    incident
+        .units
+        .iter()
+        .enumerate()
+        .map(|(u, unit)| {
+            let task = placement.get(u).map(|t| incident.tasks[t].id.clone());
+            (unit.id.clone(), task)
+        })
+        .collect()
+}
+
+/// Worst task of each tier that has open tasks, highest tier first.
+pub fn worst_by_tier(incident: &Incident, tasks: &[TaskView]) -> Vec<TierWorst> {
+    Tier::ALL
+        .iter()
+        .filter_map(|&tier| {
+            let worst = tasks
+                .iter()
+                .filter(|t| t.tier == tier.as_str())
+                .min_by(|a, b| ln_key(a).total_cmp(&ln_key(b)))?;
+            Some(TierWorst {
+                tier: tier.as_str(),
+                task: worst.id.clone(),
+                odds: worst.odds,
+                ln_odds: worst.ln_odds,
+                secure: incident.secure.get(tier),
+            })
+        })
+        .collect()
+}
+
+/// ln odds for ordering (`null` = −∞).
+fn ln_key(t: &TaskView) -> f64 {
+    t.ln_odds.unwrap_or(f64::NEG_INFINITY)
+}
+
+/// The whole `odds --json` document for `placement`.
+pub fn odds_view(incident: &Incident, placement: &Placement) -> OddsView {
+    let tasks = task_views(incident, placement);
+    let min_ln = tasks.iter().map(ln_key).fold(0.0_f64, f64::min);
+    OddsView {
+        incident: incident.name.clone(),
+        placement: placement_view(incident, placement),
+        worst_by_tier: worst_by_tier(incident, &tasks),
+        min_odds: min_ln.exp(),
+        min_ln_odds: finite(min_ln),
+        tasks,
+        caution: SAFETY_CAUTION,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::parse_incident_str;
+
+    const YAML: &str = r#"
+incident: { name: Invented drill }
+traits:
+  - { id: water, unit: L/min }
+  - { id: crew, unit: persons }
+unit_types:
+  - { id: engine, traits: { water: { mean: 1900, sd: 250 }, crew: { mean: 4, sd: 0 } } }
+units: [ { id: E1, type: engine }, { id: E2, type: engine }, { id: E3, type: engine } ]
+tasks:
+  - { id: T1, tier: life, needs: { water: 3000, crew: 6 } }
+  - { id: T2, needs: { water: { need: 2500, sd: 300 } } }
+  - { id: T3, tier: stabilization, needs: { crew: 2 }, min_units: 2 }
+placement: { E1: T1, E2: T1, E3: T3 }
+"#;
+
+    #[test]
+    fn views_match_the_model() {
+        let inc = parse_incident_str(YAML, "drill.yaml").expect("valid drill");
+        let v = odds_view(&inc, &inc.placement);
+        assert_eq!(v.tasks.len(), 3);
+        let t1 = &v.tasks[0];
+        assert_eq!(t1.tier, "life");
+        assert_eq!(t1.binding_trait.as_deref(), Some("water"));
+        assert_eq!(t1.regime, Some("hedge"));
+        assert_eq!(t1.units, vec!["E1", "E2"]);
+        // 3800 − 3000 = +800 L/min; crew 8 vs 6 with sd 0 is certain.
+        assert_eq!(t1.margin, Some(800.0));
+        assert_eq!(t1.unit.as_deref(), Some("L/min"));
+        let crew = &t1.traits[1];
+        assert_eq!(crew.z, None);
+        assert_eq!(crew.odds, 1.0);
+        // T2 has no units: forced to 0, ln odds null, gamble.
+        let t2 = &v.tasks[1];
+        assert_eq!(t2.forced_zero, Some("no_units"));
+        assert_eq!(t2.ln_odds, None);
+        assert_eq!(t2.odds, 0.0);
+        assert_eq!(t2.regime, Some("gamble"));
+        assert_eq!(t2.z, None);
+        // T3: one unit, needs two.
+        assert_eq!(v.tasks[2].forced_zero, Some("below_minimum"));
+        assert_eq!(v.min_odds, 0.0);
+        assert_eq!(v.placement.get("E3"), Some(&Some("T3".to_string())));
+        assert_eq!(v.worst_by_tier.len(), 3);
+        assert_eq!(v.worst_by_tier[0].tier, "life");
+        let json = serde_json::to_value(&v).expect("serializable");
+        assert_eq!(json["tasks"][0]["traits"][0]["trait"], "water");
+        assert!(json["tasks"][1]["ln_odds"].is_null());
+    }
+}
