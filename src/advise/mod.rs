@@ -166,7 +166,7 @@ pub struct Advice {
 }
 
 /// The baseline plan: the stable re-plan now, nothing lost.
-pub(crate) fn baseline_plan(
+pub fn baseline_plan(
     incident: &Incident,
     options: &AdviseOptions,
     cancel: &AtomicBool,

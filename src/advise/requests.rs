@@ -20,7 +20,12 @@
 //!    cannot secure the tier and is dropped without a solve. One that passes
 //!    is added to a copy of the incident, in reserve, and solved from
 //!    scratch (warm-started from the best plan); it is sufficient when every
-//!    task of the tier then reaches its secure level.
+//!    task of the tier then reaches its secure level. On incidents too large
+//!    for the exact search, a candidate is first inserted into the best plan
+//!    (the tier's worst task below its level takes the extra unit that
+//!    raises it most, repeatedly); only one that secures the tier there is
+//!    solved, warm-started from the insertion. The others are dropped
+//!    unsolved, so the result is then never marked proven.
 //! 5. The first sufficient candidate is the request; up to
 //!    [`AdviseOptions::alternatives`] sufficient candidates that are not
 //!    supersets of an earlier one, and at most one unit larger than the
@@ -47,7 +52,7 @@
 
 use super::{AdviseError, AdviseOptions, TierOdds, tier_odds};
 use crate::model::{Incident, Placement, TaskIdx, Tier, TypeIdx, Unit, UnitStatus};
-use crate::odds::tallies;
+use crate::odds::{TaskTally, tallies};
 use crate::solver::key::{cmp_ln, ln_cap};
 use crate::solver::{SolveOptions, solve};
 use serde::Serialize;
@@ -133,6 +138,38 @@ pub struct TierRequest {
     /// Tasks of the tier below its secure level with that plan.
     pub short_tasks: Vec<String>,
     pub outcome: RequestOutcome,
+}
+
+impl TierRequest {
+    /// One line: what was found.
+    pub fn outcome_summary(&self) -> String {
+        match &self.outcome {
+            RequestOutcome::Found {
+                sets,
+                minimal_proven,
+            } => format!(
+                "{} (and {} alternatives){}",
+                sets.first().map(RequestSet::describe).unwrap_or_default(),
+                sets.len().saturating_sub(1),
+                if *minimal_proven {
+                    ", minimal proven"
+                } else {
+                    ""
+                }
+            ),
+            RequestOutcome::OutOfReach { tasks } => format!("out of reach ({} tasks)", tasks.len()),
+            RequestOutcome::NotWithin {
+                max_extra_units,
+                candidates_checked,
+                proven,
+            } => format!(
+                "none within {max_extra_units} units ({candidates_checked} checked, proven {proven})"
+            ),
+            RequestOutcome::TimeLimit { candidates_checked } => {
+                format!("time limit after {candidates_checked} sets")
+            }
+        }
+    }
 }
 
 /// Φ⁻¹(s)·need sd margin over the need, for secure levels above one half;
@@ -535,7 +572,27 @@ fn search_tier(
     let mut minimal_proven = true;
     let mut all_proven = !cut;
     let mut checked = 0;
-    let mut warm = best.0.clone();
+    let mut warm;
+    // The exact search can judge every candidate on small incidents; on
+    // larger ones a candidate is first inserted into the best plan.
+    let movable = (0..incident.units.len())
+        .filter(|u| {
+            incident.units[*u].status == UnitStatus::Available && !incident.pins.contains_key(u)
+        })
+        .count();
+    let insertion_only = movable + options.max_extra_units > options.exact_max_units;
+    let cap = ln_cap(incident, tier);
+    let full: Vec<usize> = (0..n_types)
+        .map(|ty| {
+            if helpful.contains(&ty) {
+                options.max_extra_units
+            } else {
+                0
+            }
+        })
+        .collect();
+    let pool = with_extra_units(incident, &full);
+    let insertion = Insertion::new(&pool, best, tasks);
     for cand in &candidates {
         if found.len() >= options.alternatives.max(1) {
             break;
@@ -564,8 +621,26 @@ fn search_tier(
         }
         checked += 1;
         let inc = with_extra_units(incident, cand);
-        warm.resize(inc.units.len(), None);
-        warm.truncate(inc.units.len());
+        if insertion_only {
+            // Large incident: judge the set by inserting it into the best
+            // plan first; only a set that secures the tier there is solved.
+            match insertion.insert(&pool, cand, cap) {
+                Some(extra) => {
+                    warm = best.0.clone();
+                    warm.extend(extra);
+                }
+                None => {
+                    all_proven = false;
+                    if found.is_empty() {
+                        minimal_proven = false;
+                    }
+                    continue;
+                }
+            }
+        } else {
+            warm = best.0.clone();
+            warm.resize(inc.units.len(), None);
+        }
         let opts = SolveOptions {
             from_scratch: true,
             warm_start: Some(Placement(warm.clone())),
@@ -627,6 +702,107 @@ fn search_tier(
         sets: found.into_iter().map(|(_, s)| s).collect(),
         minimal_proven: minimal_proven && !cut,
     }
+}
+
+/// Extra units placed into the best plan, each on a task of the tier: the
+/// fast judge of a candidate on large incidents.
+struct Insertion {
+    /// Tier tasks with their tallies under the best plan.
+    tasks: Vec<(TaskIdx, TaskTally)>,
+    n_existing: usize,
+}
+
+impl Insertion {
+    fn new(pool: &Incident, best: &Placement, tasks: &[TaskIdx]) -> Insertion {
+        let n_existing = best.len();
+        let mut p = best.0.clone();
+        p.resize(pool.units.len(), None);
+        let tl = tallies(pool, &Placement(p));
+        Insertion {
+            tasks: tasks.iter().map(|&t| (t, tl[t].clone())).collect(),
+            n_existing,
+        }
+    }
+
+    /// Places the candidate's units (pool units: per type, the first
+    /// `counts[type]` of `max` requested ones) one at a time: the tier task
+    /// with the lowest odds below `cap` takes the unit that raises it most.
+    /// Returns the place of each unit of the candidate, in the order
+    /// [`with_extra_units`] adds them, when every task ends at `cap`.
+    fn insert(&self, pool: &Incident, counts: &[usize], cap: f64) -> Option<Vec<Option<TaskIdx>>> {
+        // Pool units of each type, in the order they were added.
+        let mut left: Vec<usize> = Vec::new();
+        let mut order: Vec<usize> = Vec::new();
+        for (ty, &c) in counts.iter().enumerate() {
+            let of_type: Vec<usize> = (self.n_existing..pool.units.len())
+                .filter(|&u| pool.units[u].type_idx == ty)
+                .take(c)
+                .collect();
+            order.extend(&of_type);
+            left.extend(of_type);
+        }
+        let mut tasks = self.tasks.clone();
+        let mut place: Vec<(usize, TaskIdx)> = Vec::new();
+        loop {
+            let mut below: Vec<(usize, f64)> = tasks
+                .iter()
+                .enumerate()
+                .map(|(i, (t, tl))| (i, tl.ln_odds(&pool.tasks[*t])))
+                .filter(|(_, ln)| cmp_ln(*ln, cap) == Ordering::Less)
+                .collect();
+            if below.is_empty() {
+                break;
+            }
+            below.sort_by(|a, b| a.1.total_cmp(&b.1));
+            let mut placed = false;
+            for (i, _) in below {
+                let (t, tl) = &mut tasks[i];
+                let task = &pool.tasks[*t];
+                if tl.count() >= task.max_units.unwrap_or(u32::MAX) {
+                    continue;
+                }
+                let mut best: Option<(usize, f64)> = None;
+                for (j, &u) in left.iter().enumerate() {
+                    if !task.accepts_type(pool.units[u].type_idx) {
+                        continue;
+                    }
+                    tl.add(pool, u);
+                    let ln = ln_odds_ignoring_minimum(tl, task);
+                    tl.remove(pool, u);
+                    if best.is_none_or(|(_, b)| ln > b) {
+                        best = Some((j, ln));
+                    }
+                }
+                if let Some((j, _)) = best {
+                    let u = left.swap_remove(j);
+                    tl.add(pool, u);
+                    place.push((u, *t));
+                    placed = true;
+                    break;
+                }
+            }
+            if !placed {
+                return None;
+            }
+        }
+        Some(
+            order
+                .iter()
+                .map(|u| place.iter().find(|(p, _)| p == u).map(|(_, t)| *t))
+                .collect(),
+        )
+    }
+}
+
+/// ln odds of the task's needs alone (a task below its minimum still
+/// shows progress as units arrive).
+fn ln_odds_ignoring_minimum(tl: &TaskTally, task: &crate::model::Task) -> f64 {
+    task.needs
+        .iter()
+        .enumerate()
+        .filter(|(_, n)| n.counts())
+        .map(|(k, n)| tl.trait_odds(k, *n).ln_odds)
+        .sum()
 }
 
 #[cfg(test)]
