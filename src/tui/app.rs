@@ -9,7 +9,10 @@ use std::time::Duration;
 
 use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
 
+use super::actions::{UndoEntry, compensation, move_spec, open_form, submit};
 use super::board::{Proposal, task_order, worst_open};
+use super::events::{Event, Record, apply, summary};
+use super::form::{Form, FormKind, FormOutcome};
 use super::theme::Theme;
 use crate::model::{Incident, Placement, TaskIdx};
 use crate::odds::{TaskOdds, evaluate};
@@ -51,6 +54,8 @@ pub enum PlanStatus {
     },
     /// The re-plan failed; the message says why.
     Failed(String),
+    /// The commander rejected the proposal; no new one until the state changes.
+    Rejected,
 }
 
 /// One line of the recent-log panel.
@@ -79,11 +84,12 @@ pub struct Flash {
 }
 
 /// What covers the board, if anything.
-#[derive(Debug, Clone, PartialEq, Default)]
+#[derive(Debug, Clone, Default)]
 pub enum Overlay {
     #[default]
     None,
     Help,
+    Form(Form),
 }
 
 /// Everything the screen shows; drawing is a pure function of it.
@@ -112,6 +118,15 @@ pub struct AppState {
     pub advice: Vec<String>,
     pub theme: Theme,
     pub quit: bool,
+    /// Who this dashboard writes as (`by` of its records).
+    pub operator: String,
+    /// Highest sequence number applied.
+    pub last_seq: Option<u64>,
+    /// The operator's own actions, newest last, with their undo.
+    pub undo: Vec<UndoEntry>,
+    /// Moves of the last `plan_proposed` written, so the same proposal is
+    /// not written twice.
+    pub last_written_proposal: Option<Vec<super::events::MoveSpec>>,
 }
 
 /// The one closed set of things that can happen to the dashboard.
@@ -133,6 +148,15 @@ pub enum AppEvent {
         generation: u64,
         result: Result<PlanResult, String>,
     },
+    /// SIGTERM or SIGHUP: quit and restore the terminal.
+    Shutdown,
+    /// A record is in the log (ours after the append, or another writer's).
+    RecordAppended(Record),
+    /// An append was refused; nothing was written.
+    AppendFailed {
+        message: String,
+        undoable: bool,
+    },
 }
 
 /// What a finished re-plan hands back.
@@ -150,6 +174,13 @@ pub enum Effect {
     /// incident in the state.
     Replan {
         generation: u64,
+    },
+    /// Append these events to the log, in order, each only after the one
+    /// before it was written; `undoable` when they are an operator action
+    /// whose undo was just pushed.
+    Append {
+        events: Vec<Event>,
+        undoable: bool,
     },
     Quit,
 }
@@ -181,6 +212,10 @@ impl AppState {
             advice: Vec::new(),
             theme,
             quit: false,
+            operator: "commander".into(),
+            last_seq: None,
+            undo: Vec::new(),
+            last_written_proposal: None,
         };
         state.push_worst();
         state
@@ -257,6 +292,10 @@ pub fn update(state: &mut AppState, event: AppEvent) -> Vec<Effect> {
     match event {
         AppEvent::Key(key) => on_key(state, key),
         AppEvent::Resize(..) | AppEvent::Tick => Vec::new(),
+        AppEvent::Shutdown => {
+            state.quit = true;
+            vec![Effect::Quit]
+        }
         AppEvent::SolverProgress {
             generation,
             placement,
@@ -283,9 +322,36 @@ pub fn update(state: &mut AppState, event: AppEvent) -> Vec<Effect> {
                         elapsed: plan.elapsed,
                         proven_optimal: plan.proven_optimal,
                     };
+                    // The settled recommendation goes to the log, so that a
+                    // replay can set it beside what was done.
+                    if let Some(p) = &state.proposal {
+                        let moves: Vec<_> = p
+                            .moves
+                            .iter()
+                            .map(|m| move_spec(&state.incident, m))
+                            .collect();
+                        if state.last_written_proposal.as_ref() != Some(&moves) {
+                            state.last_written_proposal = Some(moves.clone());
+                            return vec![Effect::Append {
+                                events: vec![Event::PlanProposed { moves }],
+                                undoable: false,
+                            }];
+                        }
+                    }
                 }
                 Err(e) => state.plan_status = PlanStatus::Failed(e),
             }
+            Vec::new()
+        }
+        AppEvent::RecordAppended(record) => on_record(state, record),
+        AppEvent::AppendFailed { message, undoable } => {
+            if undoable {
+                state.undo.pop();
+            }
+            state.flash = Some(Flash {
+                error: true,
+                text: format!("not written to the log: {message}"),
+            });
             Vec::new()
         }
     }
@@ -300,16 +366,37 @@ fn on_key(state: &mut AppState, key: KeyEvent) -> Vec<Effect> {
         state.quit = true;
         return vec![Effect::Quit];
     }
-    if state.overlay == Overlay::Help {
-        if matches!(
-            key.code,
-            KeyCode::Esc | KeyCode::Char('?') | KeyCode::Enter | KeyCode::Char('q')
-        ) {
-            state.overlay = Overlay::None;
+    match &mut state.overlay {
+        Overlay::Help => {
+            if matches!(
+                key.code,
+                KeyCode::Esc | KeyCode::Char('?') | KeyCode::Enter | KeyCode::Char('q')
+            ) {
+                state.overlay = Overlay::None;
+            }
+            return Vec::new();
         }
-        return Vec::new();
+        Overlay::Form(form) => {
+            return match form.on_key(key) {
+                FormOutcome::Editing => Vec::new(),
+                FormOutcome::Cancel => {
+                    state.overlay = Overlay::None;
+                    Vec::new()
+                }
+                FormOutcome::Submit => {
+                    let form = form.clone();
+                    submit_form(state, form)
+                }
+            };
+        }
+        Overlay::None => {}
     }
     state.flash = None;
+    if state.mode == Mode::Command
+        && let Some(effects) = command_key(state, key.code)
+    {
+        return effects;
+    }
     let n_tasks = state.task_order().len();
     match key.code {
         KeyCode::Char('q') => {
@@ -328,4 +415,198 @@ fn on_key(state: &mut AppState, key: KeyEvent) -> Vec<Effect> {
         _ => {}
     }
     Vec::new()
+}
+
+/// Applies a record from the log: the only way the incident changes.
+fn on_record(state: &mut AppState, record: Record) -> Vec<Effect> {
+    if state.last_seq.is_some_and(|s| record.seq <= s) {
+        return Vec::new(); // already applied (our own append read back)
+    }
+    state.last_seq = Some(record.seq);
+    let lost_from = match &record.event {
+        Event::UnitLost { unit, reason } => state.incident.unit_idx(unit).map(|u| LostUnit {
+            unit: unit.clone(),
+            reason: reason.clone(),
+            from_task: state
+                .incident
+                .placement
+                .get(u)
+                .map(|t| state.incident.tasks[t].id.clone()),
+        }),
+        _ => None,
+    };
+    let at = record.at.get(11..19).unwrap_or(&record.at).to_string();
+    state.push_log_line(LogLine {
+        seq: record.seq,
+        at,
+        by: record.by.clone(),
+        text: summary(&record.event),
+    });
+    if let Err(e) = apply(&mut state.incident, &record.event) {
+        state.flash = Some(Flash {
+            error: true,
+            text: format!("log record #{} does not apply: {e}", record.seq),
+        });
+        return Vec::new();
+    }
+    if let Some(l) = lost_from {
+        state.lost.push(l);
+    }
+    match &record.event {
+        Event::Note { .. } => Vec::new(),
+        Event::PlanRejected => {
+            if state.mode != Mode::Command {
+                state.proposal = None;
+            }
+            Vec::new()
+        }
+        Event::PlanProposed { moves } => {
+            if state.mode != Mode::Command {
+                let mut placement = state.incident.placement.clone();
+                for m in moves {
+                    if let Some(u) = state.incident.unit_idx(&m.unit) {
+                        placement.set(u, m.to.as_deref().and_then(|t| state.incident.task_idx(t)));
+                    }
+                }
+                state.take_placement(placement);
+            }
+            Vec::new()
+        }
+        _ => state.incident_changed(),
+    }
+}
+
+/// Writes the events of an operator action, pushing its undo first.
+fn act(state: &mut AppState, label: String, events: Vec<Event>) -> Vec<Effect> {
+    // The undo is worked out on the incident before the action, event by event.
+    let mut scratch = state.incident.clone();
+    let mut comp: Vec<Event> = Vec::new();
+    let mut undoable = true;
+    for e in &events {
+        match compensation(&scratch, e) {
+            Ok(mut c) => {
+                c.append(&mut comp);
+                comp = c;
+            }
+            Err(_) => undoable = false,
+        }
+        if let Err(e) = apply(&mut scratch, e) {
+            state.flash = Some(Flash {
+                error: true,
+                text: format!("refused: {e}"),
+            });
+            return Vec::new();
+        }
+    }
+    if undoable {
+        state.undo.push(UndoEntry {
+            label: label.clone(),
+            compensation: comp,
+        });
+    }
+    state.flash = Some(Flash {
+        error: false,
+        text: format!("written to the log: {label}"),
+    });
+    vec![Effect::Append { events, undoable }]
+}
+
+fn submit_form(state: &mut AppState, form: Form) -> Vec<Effect> {
+    match submit(state, &form) {
+        Ok(events) => {
+            state.overlay = Overlay::None;
+            if events.is_empty() {
+                return Vec::new();
+            }
+            let label = events.iter().map(summary).collect::<Vec<_>>().join("; ");
+            act(state, label, events)
+        }
+        Err((field, message)) => {
+            if let Overlay::Form(f) = &mut state.overlay {
+                f.error = Some((field, message));
+                f.focus = field;
+            }
+            Vec::new()
+        }
+    }
+}
+
+/// Keys of the commander's dashboard; `None` when the key is not one of them.
+fn command_key(state: &mut AppState, code: KeyCode) -> Option<Vec<Effect>> {
+    let kind = match code {
+        KeyCode::Char('l') => FormKind::Lost,
+        KeyCode::Char('a') => FormKind::AddUnit,
+        KeyCode::Char('r') => FormKind::Rerate,
+        KeyCode::Char('n') => FormKind::ChangeNeed,
+        KeyCode::Char('c') => FormKind::CloseTask,
+        KeyCode::Char('p') => FormKind::Pin,
+        KeyCode::Char('m') => FormKind::Move,
+        KeyCode::Char('t') => FormKind::Note,
+        KeyCode::Char('s') => FormKind::AcceptOne,
+        KeyCode::Char('y') => {
+            let Some(p) = &state.proposal else {
+                state.flash = Some(Flash {
+                    error: true,
+                    text: "no proposal to accept".into(),
+                });
+                return Some(Vec::new());
+            };
+            let moves: Vec<_> = p
+                .moves
+                .iter()
+                .map(|m| move_spec(&state.incident, m))
+                .collect();
+            let label = format!("accepted {} moves", moves.len());
+            return Some(act(state, label, vec![Event::PlanAccepted { moves }]));
+        }
+        KeyCode::Char('x') => {
+            if state.proposal.is_none() {
+                state.flash = Some(Flash {
+                    error: true,
+                    text: "no proposal to reject".into(),
+                });
+                return Some(Vec::new());
+            }
+            state.proposal = None;
+            // Late results of this generation are dropped.
+            state.generation += 1;
+            state.plan_status = PlanStatus::Rejected;
+            state.flash = Some(Flash {
+                error: false,
+                text: "proposal rejected".into(),
+            });
+            return Some(vec![Effect::Append {
+                events: vec![Event::PlanRejected],
+                undoable: false,
+            }]);
+        }
+        KeyCode::Char('u') => {
+            let Some(entry) = state.undo.pop() else {
+                state.flash = Some(Flash {
+                    error: true,
+                    text: "nothing of yours to undo".into(),
+                });
+                return Some(Vec::new());
+            };
+            state.flash = Some(Flash {
+                error: false,
+                text: format!("undoing: {}", entry.label),
+            });
+            return Some(vec![Effect::Append {
+                events: entry.compensation,
+                undoable: false,
+            }]);
+        }
+        _ => return None,
+    };
+    match open_form(state, kind) {
+        Ok(form) => state.overlay = Overlay::Form(form),
+        Err(e) => {
+            state.flash = Some(Flash {
+                error: true,
+                text: e,
+            })
+        }
+    }
+    Some(Vec::new())
 }

@@ -12,8 +12,11 @@
 //! One file per panel: `panel_tasks`, `panel_units`, `panel_picture`,
 //! `panel_notes`, `panel_log`, `panel_status`, `panel_help`.
 
+pub mod actions;
 pub mod app;
 pub mod board;
+pub mod events;
+pub mod form;
 pub mod format;
 pub mod panel_help;
 pub mod panel_log;
@@ -22,6 +25,9 @@ pub mod panel_picture;
 pub mod panel_status;
 pub mod panel_tasks;
 pub mod panel_units;
+pub mod planner;
+pub mod runtime;
+pub mod terminal;
 pub mod theme;
 pub mod view;
 

@@ -53,6 +53,7 @@ pub fn plan_words(state: &AppState) -> String {
             }
         }
         PlanStatus::Failed(e) => format!("re-plan failed: {e}"),
+        PlanStatus::Rejected => "re-plan: proposal rejected · waits for a change".into(),
     }
 }
 

@@ -60,8 +60,10 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     panel_notes::render(state, frame, notes);
     panel_log::render(state, frame, log);
 
-    if state.overlay == Overlay::Help {
-        panel_help::render(state, frame, area);
+    match &state.overlay {
+        Overlay::Help => panel_help::render(state, frame, area),
+        Overlay::Form(form) => super::form::render(form, &state.theme, frame, area),
+        Overlay::None => {}
     }
 }
 
