@@ -4,8 +4,9 @@
 
 use super::app::AppState;
 use super::board::{place_name, task_order};
-use super::events::{Event, MoveSpec, RatingSpec, UnitSpec};
 use super::form::{Field, Form, FormKind};
+use crate::log::{Event, Move as MoveSpec, OutcomeValue, StatusValue};
+use crate::model::file::{RatingFile as RatingSpec, UnitFile as UnitSpec};
 use crate::model::{Incident, Tier, UnitStatus};
 
 /// An action the operator may undo, with the events that undo it.
@@ -213,7 +214,10 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
             if reason.is_empty() {
                 return Err((1, "give a reason (it goes to the log)".into()));
             }
-            Ok(vec![Event::UnitLost { unit, reason }])
+            Ok(vec![Event::UnitLost {
+                unit,
+                reason: Some(reason),
+            }])
         }
         FormKind::AddUnit => {
             let id = form.value(0);
@@ -238,17 +242,13 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
                     id,
                     unit_type,
                     traits,
+                    status: None,
                 },
             }])
         }
         FormKind::Rerate => {
             let unit = picked(form, 0, "unit")?;
             let trait_id = picked(form, 1, "trait")?;
-            let u = inc.unit_idx(&unit).ok_or((0, "unknown unit".to_string()))?;
-            let k = inc
-                .trait_idx(&trait_id)
-                .ok_or((1, "unknown trait".to_string()))?;
-            let now = inc.units[u].ratings[k];
             let mean = number(form, 2, "mean", false)?;
             let sd = number(form, 3, "sd", false)?;
             if mean.is_none() && sd.is_none() {
@@ -257,15 +257,15 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
             Ok(vec![Event::UnitRerated {
                 unit,
                 trait_id,
-                mean: mean.unwrap_or(now.mean),
-                sd: sd.unwrap_or(now.sd),
+                mean,
+                sd,
             }])
         }
         FormKind::ChangeNeed => {
             let task = picked(form, 0, "task")?;
             let trait_id = picked(form, 1, "trait")?;
             let need = number(form, 2, "need", true)?.unwrap_or_default();
-            let sd = number(form, 3, "sd", false)?.unwrap_or(0.0);
+            let sd = number(form, 3, "sd", false)?;
             Ok(vec![Event::NeedChanged {
                 task,
                 trait_id,
@@ -273,10 +273,18 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
                 sd,
             }])
         }
-        FormKind::CloseTask => Ok(vec![Event::TaskClosed {
-            task: picked(form, 0, "task")?,
-            outcome: picked(form, 1, "outcome")?,
-        }]),
+        FormKind::CloseTask => {
+            let outcome = match picked(form, 1, "outcome")?.as_str() {
+                "succeeded" => OutcomeValue::Succeeded,
+                "failed" => OutcomeValue::Failed,
+                "cancelled" => OutcomeValue::Cancelled,
+                other => return Err((1, format!("unknown outcome {other}"))),
+            };
+            Ok(vec![Event::TaskClosed {
+                task: picked(form, 0, "task")?,
+                outcome,
+            }])
+        }
         FormKind::Pin => {
             let unit = picked(form, 0, "unit")?;
             let task = form.value(1);
@@ -381,12 +389,13 @@ pub fn compensation(inc: &Incident, event: &Event) -> Result<Vec<Event>, String>
                     id: unit.clone(),
                     unit_type: inc.unit_types[un.type_idx].id.clone(),
                     traits,
+                    status: None,
                 },
             }];
             if un.status == UnitStatus::OutOfService {
                 out.push(Event::UnitStatus {
                     unit: unit.clone(),
-                    status: "out_of_service".into(),
+                    status: StatusValue::OutOfService,
                 });
             }
             if let Some(t) = inc.placement.get(u) {
@@ -405,7 +414,7 @@ pub fn compensation(inc: &Incident, event: &Event) -> Result<Vec<Event>, String>
         }
         Event::UnitAdded { unit } => Ok(vec![Event::UnitLost {
             unit: unit.id.clone(),
-            reason: "undo: added in error".into(),
+            reason: Some("undo: added in error".into()),
         }]),
         Event::UnitRerated { unit, trait_id, .. } => {
             let u = unit_idx(unit)?;
@@ -414,8 +423,8 @@ pub fn compensation(inc: &Incident, event: &Event) -> Result<Vec<Event>, String>
             Ok(vec![Event::UnitRerated {
                 unit: unit.clone(),
                 trait_id: trait_id.clone(),
-                mean: r.mean,
-                sd: r.sd,
+                mean: Some(r.mean),
+                sd: Some(r.sd),
             }])
         }
         Event::NeedChanged { task, trait_id, .. } => {
@@ -426,7 +435,7 @@ pub fn compensation(inc: &Incident, event: &Event) -> Result<Vec<Event>, String>
                 task: task.clone(),
                 trait_id: trait_id.clone(),
                 need: n.need,
-                sd: n.sd,
+                sd: Some(n.sd),
             }])
         }
         Event::TaskClosed { task, .. } => Err(format!(
@@ -464,9 +473,13 @@ pub fn compensation(inc: &Incident, event: &Event) -> Result<Vec<Event>, String>
         }]),
         Event::UnitStatus { unit, .. } => {
             let u = unit_idx(unit)?;
+            let status = match inc.units[u].status {
+                UnitStatus::Available => StatusValue::Available,
+                UnitStatus::OutOfService => StatusValue::OutOfService,
+            };
             let mut out = vec![Event::UnitStatus {
                 unit: unit.clone(),
-                status: inc.units[u].status.as_str().into(),
+                status,
             }];
             if let Some(t) = inc.placement.get(u) {
                 out.push(Event::Moved {
@@ -476,7 +489,11 @@ pub fn compensation(inc: &Incident, event: &Event) -> Result<Vec<Event>, String>
             }
             Ok(out)
         }
-        Event::PlanProposed { .. } | Event::PlanRejected => {
+        Event::TaskAdded { task } => Err(format!(
+            "adding {} cannot be undone (the log has no task removal); close it instead",
+            task.id
+        )),
+        Event::PlanProposed { .. } | Event::PlanRejected {} | Event::IncidentOpened { .. } => {
             Err("a proposal or a rejection changes nothing to undo".into())
         }
     }

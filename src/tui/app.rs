@@ -11,9 +11,9 @@ use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
 
 use super::actions::{UndoEntry, compensation, move_spec, open_form, submit};
 use super::board::{Proposal, task_order, worst_open};
-use super::events::{Event, Record, apply, summary};
 use super::form::{Form, FormKind, FormOutcome};
 use super::theme::Theme;
+use crate::log::{Event, Record, apply};
 use crate::model::{Incident, Placement, TaskIdx};
 use crate::odds::{TaskOdds, evaluate};
 
@@ -126,8 +126,32 @@ pub struct AppState {
     pub undo: Vec<UndoEntry>,
     /// Moves of the last `plan_proposed` written, so the same proposal is
     /// not written twice.
-    pub last_written_proposal: Option<Vec<super::events::MoveSpec>>,
+    pub last_written_proposal: Option<Vec<crate::log::Move>>,
+    /// The last recommendation in the log: its seq and moves.
+    pub last_proposed: Option<(u64, Vec<crate::log::Move>)>,
+    /// What was done on the ground since that recommendation.
+    pub done_since: Vec<String>,
+    /// Closed tasks: id, outcome, odds on the ground just before closing.
+    pub closed: Vec<(String, String, f64)>,
+    /// The trainer's position in a saved log (replay mode only).
+    pub replay: Option<ReplayCursor>,
 }
+
+/// Position and pace of a replay.
+#[derive(Debug, Clone)]
+pub struct ReplayCursor {
+    pub records: std::sync::Arc<Vec<Record>>,
+    /// Index in `records` of the last record applied.
+    pub at: usize,
+    pub playing: bool,
+    /// Records per second while playing.
+    pub speed: f64,
+    /// Seconds of play not yet turned into steps.
+    pub owed: f64,
+}
+
+/// Play speeds offered by `+`/`-`, records per second.
+pub const REPLAY_SPEEDS: [f64; 6] = [0.5, 1.0, 2.0, 5.0, 10.0, 50.0];
 
 /// The one closed set of things that can happen to the dashboard.
 #[derive(Debug, Clone)]
@@ -216,6 +240,10 @@ impl AppState {
             last_seq: None,
             undo: Vec::new(),
             last_written_proposal: None,
+            last_proposed: None,
+            done_since: Vec::new(),
+            closed: Vec::new(),
+            replay: None,
         };
         state.push_worst();
         state
@@ -291,7 +319,11 @@ impl AppState {
 pub fn update(state: &mut AppState, event: AppEvent) -> Vec<Effect> {
     match event {
         AppEvent::Key(key) => on_key(state, key),
-        AppEvent::Resize(..) | AppEvent::Tick => Vec::new(),
+        AppEvent::Resize(..) => Vec::new(),
+        AppEvent::Tick => {
+            replay_tick(state, super::runtime::TICK);
+            Vec::new()
+        }
         AppEvent::Shutdown => {
             state.quit = true;
             vec![Effect::Quit]
@@ -397,6 +429,9 @@ fn on_key(state: &mut AppState, key: KeyEvent) -> Vec<Effect> {
     {
         return effects;
     }
+    if state.mode == Mode::Replay && replay_key(state, key) {
+        return Vec::new();
+    }
     let n_tasks = state.task_order().len();
     match key.code {
         KeyCode::Char('q') => {
@@ -426,7 +461,7 @@ fn on_record(state: &mut AppState, record: Record) -> Vec<Effect> {
     let lost_from = match &record.event {
         Event::UnitLost { unit, reason } => state.incident.unit_idx(unit).map(|u| LostUnit {
             unit: unit.clone(),
-            reason: reason.clone(),
+            reason: reason.clone().unwrap_or_else(|| "no reason given".into()),
             from_task: state
                 .incident
                 .placement
@@ -435,13 +470,36 @@ fn on_record(state: &mut AppState, record: Record) -> Vec<Effect> {
         }),
         _ => None,
     };
-    let at = record.at.get(11..19).unwrap_or(&record.at).to_string();
     state.push_log_line(LogLine {
         seq: record.seq,
-        at,
+        at: record.at.format("%H:%M:%S").to_string(),
         by: record.by.clone(),
-        text: summary(&record.event),
+        text: record.event.describe(),
     });
+    // The snapshot is how the state was built; nothing to apply.
+    if matches!(record.event, Event::IncidentOpened { .. }) {
+        return Vec::new();
+    }
+    match &record.event {
+        Event::PlanProposed { moves } => {
+            state.last_proposed = Some((record.seq, moves.clone()));
+            state.done_since.clear();
+        }
+        Event::PlanAccepted { .. } | Event::Moved { .. } | Event::PlanRejected {} => {
+            state
+                .done_since
+                .push(format!("#{} {}", record.seq, record.event.describe()));
+        }
+        Event::TaskClosed { task, outcome } => {
+            if let Some(t) = state.incident.task_idx(task) {
+                let odds = state.ground.get(t).map_or(0.0, |o| o.odds());
+                state
+                    .closed
+                    .push((task.clone(), outcome.as_str().to_string(), odds));
+            }
+        }
+        _ => {}
+    }
     if let Err(e) = apply(&mut state.incident, &record.event) {
         state.flash = Some(Flash {
             error: true,
@@ -454,7 +512,7 @@ fn on_record(state: &mut AppState, record: Record) -> Vec<Effect> {
     }
     match &record.event {
         Event::Note { .. } => Vec::new(),
-        Event::PlanRejected => {
+        Event::PlanRejected {} => {
             if state.mode != Mode::Command {
                 state.proposal = None;
             }
@@ -512,13 +570,32 @@ fn act(state: &mut AppState, label: String, events: Vec<Event>) -> Vec<Effect> {
 }
 
 fn submit_form(state: &mut AppState, form: Form) -> Vec<Effect> {
+    if form.kind == FormKind::GoTo {
+        return match replay_target(state, &form.value(0)) {
+            Ok(i) => {
+                state.overlay = Overlay::None;
+                replay_seek(state, i);
+                Vec::new()
+            }
+            Err(message) => {
+                if let Overlay::Form(f) = &mut state.overlay {
+                    f.error = Some((0, message));
+                }
+                Vec::new()
+            }
+        };
+    }
     match submit(state, &form) {
         Ok(events) => {
             state.overlay = Overlay::None;
             if events.is_empty() {
                 return Vec::new();
             }
-            let label = events.iter().map(summary).collect::<Vec<_>>().join("; ");
+            let label = events
+                .iter()
+                .map(Event::describe)
+                .collect::<Vec<_>>()
+                .join("; ");
             act(state, label, events)
         }
         Err((field, message)) => {
@@ -576,7 +653,7 @@ fn command_key(state: &mut AppState, code: KeyCode) -> Option<Vec<Effect>> {
                 text: "proposal rejected".into(),
             });
             return Some(vec![Effect::Append {
-                events: vec![Event::PlanRejected],
+                events: vec![Event::PlanRejected {}],
                 undoable: false,
             }]);
         }
@@ -609,4 +686,145 @@ fn command_key(state: &mut AppState, code: KeyCode) -> Option<Vec<Effect>> {
         }
     }
     Some(Vec::new())
+}
+
+/// The state of a replay at the start of its log: the snapshot only.
+pub fn replay_state(records: Vec<Record>, theme: Theme) -> Result<AppState, crate::log::LogError> {
+    let first = crate::log::fold(&records[..1.min(records.len())])?;
+    let mut state = AppState::new(Mode::Replay, first, theme);
+    let records = std::sync::Arc::new(records);
+    if let Some(r) = records.first() {
+        on_record(&mut state, r.clone());
+    }
+    state.replay = Some(ReplayCursor {
+        records,
+        at: 0,
+        playing: false,
+        speed: 2.0,
+        owed: 0.0,
+    });
+    Ok(state)
+}
+
+/// Moves the replay to record index `target`, rebuilding the state from the
+/// snapshot (the log is the only source of truth; no reverse steps).
+pub fn replay_seek(state: &mut AppState, target: usize) {
+    let Some(cursor) = state.replay.clone() else {
+        return;
+    };
+    let target = target.min(cursor.records.len().saturating_sub(1));
+    let Ok(first) = crate::log::fold(&cursor.records[..1]) else {
+        return;
+    };
+    let mut fresh = AppState::new(Mode::Replay, first, state.theme);
+    for r in cursor.records.iter().take(target + 1) {
+        on_record(&mut fresh, r.clone());
+    }
+    fresh.selected = state
+        .selected
+        .min(fresh.task_order().len().saturating_sub(1));
+    fresh.replay = Some(ReplayCursor {
+        at: target,
+        ..cursor
+    });
+    *state = fresh;
+}
+
+fn replay_tick(state: &mut AppState, dt: Duration) {
+    let Some(c) = state.replay.as_mut() else {
+        return;
+    };
+    if !c.playing {
+        return;
+    }
+    c.owed += dt.as_secs_f64() * c.speed;
+    let steps = c.owed.floor() as usize;
+    if steps == 0 {
+        return;
+    }
+    c.owed -= steps as f64;
+    let last = c.records.len().saturating_sub(1);
+    let target = (c.at + steps).min(last);
+    if target == last {
+        c.playing = false;
+    }
+    replay_seek(state, target);
+}
+
+/// Finds a record by sequence number, `HH:MM[:SS]` (UTC) or RFC 3339 time:
+/// the last record at or before that time.
+pub fn replay_target(state: &AppState, text: &str) -> Result<usize, String> {
+    let Some(c) = &state.replay else {
+        return Err("not replaying".into());
+    };
+    let text = text.trim();
+    if let Ok(seq) = text.parse::<u64>() {
+        return c
+            .records
+            .iter()
+            .position(|r| r.seq == seq)
+            .ok_or_else(|| format!("no record #{seq} (the log has #1 to #{})", c.records.len()));
+    }
+    let at_or_before =
+        |pred: &dyn Fn(&Record) -> bool| c.records.iter().rposition(pred).unwrap_or(0);
+    if let Ok(t) = chrono::DateTime::parse_from_rfc3339(text) {
+        let t = t.with_timezone(&chrono::Utc);
+        return Ok(at_or_before(&|r: &Record| r.at <= t));
+    }
+    for fmt in ["%H:%M:%S", "%H:%M"] {
+        if let Ok(t) = chrono::NaiveTime::parse_from_str(text, fmt) {
+            return Ok(at_or_before(&|r: &Record| r.at.time() <= t));
+        }
+    }
+    Err(format!(
+        "{text:?} is neither a sequence number, HH:MM[:SS] nor an RFC 3339 time"
+    ))
+}
+
+/// Keys of the replay; true when the key was one of them.
+fn replay_key(state: &mut AppState, key: KeyEvent) -> bool {
+    let Some(c) = state.replay.as_mut() else {
+        return false;
+    };
+    let at = c.at;
+    let last = c.records.len().saturating_sub(1);
+    match key.code {
+        KeyCode::Right => replay_seek(state, at + 1),
+        KeyCode::Left => replay_seek(state, at.saturating_sub(1)),
+        KeyCode::Home if key.modifiers.contains(KeyModifiers::SHIFT) => replay_seek(state, 0),
+        KeyCode::End if key.modifiers.contains(KeyModifiers::SHIFT) => replay_seek(state, last),
+        KeyCode::Char('<') => replay_seek(state, 0),
+        KeyCode::Char('>') => replay_seek(state, last),
+        KeyCode::Char(' ') => {
+            c.playing = !c.playing;
+            c.owed = 0.0;
+            if c.playing && at == last {
+                replay_seek(state, 0);
+                if let Some(c) = state.replay.as_mut() {
+                    c.playing = true;
+                }
+            }
+        }
+        KeyCode::Char('+') => {
+            let i = REPLAY_SPEEDS
+                .iter()
+                .position(|s| *s >= c.speed)
+                .unwrap_or(0);
+            c.speed = REPLAY_SPEEDS[(i + 1).min(REPLAY_SPEEDS.len() - 1)];
+        }
+        KeyCode::Char('-') => {
+            let i = REPLAY_SPEEDS
+                .iter()
+                .position(|s| *s >= c.speed)
+                .unwrap_or(0);
+            c.speed = REPLAY_SPEEDS[i.saturating_sub(1)];
+        }
+        KeyCode::Char('g') => {
+            if let Ok(form) = open_form(state, FormKind::GoTo) {
+                state.overlay = Overlay::Form(form);
+            }
+        }
+        _ => return false,
+    }
+    true
 }

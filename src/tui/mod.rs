@@ -15,13 +15,14 @@
 pub mod actions;
 pub mod app;
 pub mod board;
-pub mod events;
 pub mod form;
 pub mod format;
+pub mod launch;
 pub mod panel_help;
 pub mod panel_log;
 pub mod panel_notes;
 pub mod panel_picture;
+pub mod panel_replay;
 pub mod panel_status;
 pub mod panel_tasks;
 pub mod panel_units;

@@ -30,15 +30,21 @@ pub struct Runtime {
     running: Option<Arc<AtomicBool>>,
     /// Where the operator's actions are written (the commander's dashboard).
     pub log: Option<Box<dyn LogSink>>,
+    /// The log followed for records (ours and others'), and the byte offset
+    /// read up to. Polled on every tick and right after each append, so
+    /// records are applied in log order whoever wrote them.
+    pub follow: Option<(std::path::PathBuf, u64)>,
 }
 
 /// Appends events to the incident log, synced before it returns.
 pub trait LogSink: Send {
-    fn append(
-        &mut self,
-        by: &str,
-        event: super::events::Event,
-    ) -> Result<super::events::Record, String>;
+    fn append(&mut self, by: &str, event: crate::log::Event) -> Result<crate::log::Record, String>;
+}
+
+impl LogSink for crate::log::LogWriter {
+    fn append(&mut self, by: &str, event: crate::log::Event) -> Result<crate::log::Record, String> {
+        crate::log::LogWriter::append(self, by, event).map_err(|e| e.to_string())
+    }
 }
 
 impl Runtime {
@@ -50,6 +56,7 @@ impl Runtime {
             planner,
             running: None,
             log: None,
+            follow: None,
         }
     }
 
@@ -111,7 +118,17 @@ impl Runtime {
                     for event in events {
                         let next = match self.log.as_mut() {
                             Some(sink) => match sink.append(&state.operator, event) {
-                                Ok(record) => AppEvent::RecordAppended(record),
+                                Ok(record) if self.follow.is_none() => {
+                                    AppEvent::RecordAppended(record)
+                                }
+                                Ok(_) => {
+                                    // Read back in log order, with anything
+                                    // others wrote before it.
+                                    for e in self.catch_up() {
+                                        queue.extend(update(state, e));
+                                    }
+                                    continue;
+                                }
                                 Err(message) => AppEvent::AppendFailed { message, undoable },
                             },
                             None => AppEvent::AppendFailed {
@@ -129,6 +146,23 @@ impl Runtime {
             }
         }
         false
+    }
+
+    /// New records of the followed log, as events.
+    pub fn catch_up(&mut self) -> Vec<AppEvent> {
+        let Some((path, offset)) = self.follow.as_mut() else {
+            return Vec::new();
+        };
+        match crate::log::read_from(path, *offset) {
+            Ok((records, next)) => {
+                *offset = next;
+                records.into_iter().map(AppEvent::RecordAppended).collect()
+            }
+            Err(e) => vec![AppEvent::AppendFailed {
+                message: format!("following the log: {e}"),
+                undoable: false,
+            }],
+        }
     }
 
     /// Starts the terminal input, tick and signal sources.
@@ -195,6 +229,14 @@ impl Runtime {
                 pending.push(more);
             }
             for event in pending {
+                if matches!(event, AppEvent::Tick) {
+                    for e in self.catch_up() {
+                        let effects = update(state, e);
+                        if self.carry_out(state, effects) {
+                            return Ok(());
+                        }
+                    }
+                }
                 let effects = update(state, event);
                 if self.carry_out(state, effects) {
                     return Ok(());
