@@ -13,7 +13,11 @@ use ratatui::crossterm::event::KeyCode;
 use tui_common::{Bench, drill};
 
 fn assert_matches_log(b: &Bench) {
-    assert_eq!(b.state.incident, b.folded(), "dashboard state differs from the log's fold");
+    assert_eq!(
+        b.state.incident,
+        b.folded(),
+        "dashboard state differs from the log's fold"
+    );
 }
 
 #[test]
@@ -30,7 +34,10 @@ fn mark_unit_lost_writes_one_record_with_its_reason() {
         }]
     );
     assert!(b.state.incident.unit_idx("E1").is_none());
-    assert_eq!(b.state.lost.last().map(|l| l.from_task.clone()), Some(Some("T1".into())));
+    assert_eq!(
+        b.state.lost.last().map(|l| l.from_task.clone()),
+        Some(Some("T1".into()))
+    );
     assert_matches_log(&b);
 }
 
@@ -70,7 +77,11 @@ fn add_unit_with_a_rating_override() {
         other => panic!("expected unit_added, got {other:?}"),
     }
     let u = b.state.incident.unit_idx("E9").expect("E9 on the roster");
-    assert_eq!(b.state.incident.placement.get(u), None, "arrives in reserve");
+    assert_eq!(
+        b.state.incident.placement.get(u),
+        None,
+        "arrives in reserve"
+    );
     assert_matches_log(&b);
 }
 
@@ -123,7 +134,10 @@ fn rerate_keeps_what_is_left_blank() {
     let u = b.state.incident.unit_idx("W1").unwrap();
     let k = b.state.incident.trait_idx("water").unwrap();
     assert_eq!(b.state.incident.units[u].ratings[k].mean, 1000.0);
-    assert_eq!(b.state.incident.units[u].ratings[k].sd, 600.0, "type's sd kept");
+    assert_eq!(
+        b.state.incident.units[u].ratings[k].sd, 600.0,
+        "type's sd kept"
+    );
     assert_matches_log(&b);
 }
 
@@ -239,7 +253,11 @@ fn undo_of_a_loss_brings_the_unit_back_where_it_was() {
     b.type_enter("H1");
     b.type_enter("strut failure");
     let written = b.key(KeyCode::Char('u'));
-    assert_eq!(written.len(), 3, "added, moved back, pinned again: {written:?}");
+    assert_eq!(
+        written.len(),
+        3,
+        "added, moved back, pinned again: {written:?}"
+    );
     let inc = &b.state.incident;
     let h1 = inc.unit_idx("H1").unwrap();
     let was = original.unit_idx("H1").unwrap();

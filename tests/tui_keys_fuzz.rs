@@ -8,7 +8,7 @@ mod tui_common;
 use oddsboard::tui::Mode;
 use proptest::prelude::*;
 use ratatui::crossterm::event::KeyCode;
-use tui_common::{Bench, drill, draw};
+use tui_common::{Bench, draw, drill};
 
 fn key() -> impl Strategy<Value = KeyCode> {
     prop_oneof![

@@ -23,7 +23,17 @@ impl Session {
     fn start(name: &str, cmd: &str) -> Session {
         let name = format!("{name}-{}", std::process::id());
         let status = Command::new("tmux")
-            .args(["new-session", "-d", "-s", &name, "-x", "140", "-y", "45", cmd])
+            .args([
+                "new-session",
+                "-d",
+                "-s",
+                &name,
+                "-x",
+                "140",
+                "-y",
+                "45",
+                cmd,
+            ])
             .env("NO_COLOR", "1")
             .status()
             .expect("tmux runs");
@@ -88,7 +98,12 @@ fn bin() -> &'static str {
 }
 
 fn kinds(log: &Path) -> Vec<Event> {
-    read_log(log).expect("log reads").records.into_iter().map(|r| r.event).collect()
+    read_log(log)
+        .expect("log reads")
+        .records
+        .into_iter()
+        .map(|r| r.event)
+        .collect()
 }
 
 #[test]
@@ -164,7 +179,10 @@ fn watch_shows_a_record_appended_by_another_process() {
     let dir = tempfile::tempdir().unwrap();
     let log = dir.path().join("drill.log");
     let mut writer = LogWriter::create(&log, &tui_common::drill(), "ic").unwrap();
-    let s = Session::start("oddsboard-watch", &format!("{} watch {}", bin(), log.display()));
+    let s = Session::start(
+        "oddsboard-watch",
+        &format!("{} watch {}", bin(), log.display()),
+    );
     s.wait_for("WATCH", Duration::from_secs(20));
     let appended = Instant::now();
     writer

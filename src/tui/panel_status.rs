@@ -48,8 +48,8 @@ pub fn plan_words(state: &AppState) -> String {
                 ""
             };
             match worst(state) {
-                Some(w) => format!("re-plan: done{proof} · proposal's worst {w}"),
-                None => format!("re-plan: done{proof} · keep the ground as it is"),
+                Some(w) => format!("re-plan: done{proof} · worst if accepted {w}"),
+                None => format!("re-plan: done{proof} · no better plan: keep the ground"),
             }
         }
         PlanStatus::Failed(e) => format!("re-plan failed: {e}"),

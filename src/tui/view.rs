@@ -51,6 +51,8 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     panel_units::render(state, frame, units);
 
     let (picture_h, log) = match body.height {
+        // The trainer's panel needs room more than the picture does.
+        _ if state.replay.is_some() && body.height < 45 => (11, Constraint::Fill(1)),
         0..36 => (12, Constraint::Length(6)),
         36..50 => (14, Constraint::Fill(1)),
         _ => (18, Constraint::Fill(1)),

@@ -100,12 +100,9 @@ impl Bench {
         let path = dir.path().join("drill.log");
         let writer = LogWriter::create(&path, &incident, "ic").expect("log created");
         let records = read_log(&path).expect("log reads").records;
-        let mut state = oddsboard::cli::dash::state_from_records(
-            Mode::Command,
-            &records,
-            Theme::monochrome(),
-        )
-        .expect("state from log");
+        let mut state =
+            oddsboard::cli::dash::state_from_records(Mode::Command, &records, Theme::monochrome())
+                .expect("state from log");
         state.operator = "ic".into();
         Bench {
             dir,
