@@ -45,6 +45,8 @@ pub fn state_from_records(
         let _ = update(&mut state, AppEvent::RecordAppended(r.clone()));
     }
     state.generation = 0;
+    // A resumed dashboard does not log again the proposal already logged.
+    state.last_written_proposal = state.last_proposed.as_ref().map(|(_, m)| m.clone());
     Ok(state)
 }
 
