@@ -34,11 +34,7 @@ fn every_sample_passes_check() {
         let out = check(&[file.as_os_str()]);
         let stdout = String::from_utf8_lossy(&out.stdout);
         let stderr = String::from_utf8_lossy(&out.stderr);
-        assert!(
-            out.status.success(),
-            "{}: {stderr}",
-            file.display()
-        );
+        assert!(out.status.success(), "{}: {stderr}", file.display());
         assert!(stdout.starts_with("ok: "), "{}: {stdout}", file.display());
         assert!(stdout.contains(" units"), "{stdout}");
         assert!(stdout.contains("placement: "), "{stdout}");
@@ -63,7 +59,11 @@ fn every_bad_input_is_refused_with_located_messages() {
     for file in bad {
         let text = std::fs::read_to_string(&file).expect("read");
         let expected = expectations(&text);
-        assert!(!expected.is_empty(), "{}: no `# expect:` line", file.display());
+        assert!(
+            !expected.is_empty(),
+            "{}: no `# expect:` line",
+            file.display()
+        );
         let out = check(&[file.as_os_str()]);
         let stderr = String::from_utf8_lossy(&out.stderr);
         assert_eq!(out.status.code(), Some(1), "{}: {stderr}", file.display());
@@ -114,8 +114,18 @@ fn json_lists_every_problem_on_stdout() {
     assert_eq!(errors[0]["line"], 14);
     assert_eq!(errors[0]["path"], "incident.started");
     assert!(errors[0]["column"].as_u64().is_some());
-    assert!(errors[0]["file"].as_str().unwrap().ends_with("several-errors.yaml"));
-    assert!(errors[3]["message"].as_str().unwrap().contains("`crew_size`"));
+    assert!(
+        errors[0]["file"]
+            .as_str()
+            .unwrap()
+            .ends_with("several-errors.yaml")
+    );
+    assert!(
+        errors[3]["message"]
+            .as_str()
+            .unwrap()
+            .contains("`crew_size`")
+    );
 }
 
 #[test]

@@ -141,7 +141,11 @@ pub fn summary(incident: &Incident, is_log: bool) -> String {
     format!(
         "ok: {}{}: {units}, {tasks}, placement: {placed} placed, {}",
         incident.name,
-        if is_log { " (log, state at its end)" } else { "" },
+        if is_log {
+            " (log, state at its end)"
+        } else {
+            ""
+        },
         plural(incident.pins.len(), "pin", "pins"),
     )
 }

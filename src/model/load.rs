@@ -97,14 +97,23 @@ pub fn parse_incident_str(text: &str, file: &str) -> Result<Incident, LoadError>
         return Err(LoadError::Invalid(locator.structural_problems(file)));
     }
     let mut sink = Sink::new(file, &locator);
-    sink.out.extend(locator.structural_problems(file));
+    let mut reported = locator.structural_problems(file);
     let incident = match serde_yaml::from_str::<LenientValue>(text) {
-        Ok(root) => read_sections(&root.0, &mut sink).map(|parsed| convert(&parsed, &mut sink)),
+        Ok(root) => {
+            let mut unread = Unread::default();
+            let parsed = read_sections(&root.0, &mut sink, &mut unread);
+            reported.append(&mut sink.out);
+            let incident = parsed.map(|parsed| convert(&parsed, &mut sink));
+            // Problems under an element that did not read are echoes of it.
+            sink.out.retain(|d| !unread.covers(&d.path));
+            incident
+        }
         Err(e) => {
-            sink.out.push(yaml_error(file, &e));
+            reported.push(yaml_error(file, &e));
             None
         }
     };
+    sink.out.append(&mut reported);
     match incident {
         Some(incident) if sink.out.is_empty() => Ok(incident),
         _ => Err(LoadError::Invalid(sink.finish())),
@@ -242,11 +251,28 @@ fn text_field(v: &serde_yaml::Value, field: &str) -> Option<String> {
     v.get(field).and_then(|x| x.as_str()).map(str::to_string)
 }
 
+/// Paths of elements that did not read (replaced by placeholders).
+#[derive(Default)]
+struct Unread(Vec<String>);
+
+impl Unread {
+    fn covers(&self, path: &str) -> bool {
+        self.0.iter().any(|s| {
+            path.strip_prefix(s.as_str())
+                .is_some_and(|rest| rest.is_empty() || rest.starts_with(['.', '[']))
+        })
+    }
+}
+
 /// Reads the file section by section and element by element, so that one
 /// bad element does not hide the problems of the others. Elements that do
 /// not read are replaced by placeholders (keeping their id) whose further
 /// problems are not reported.
-fn read_sections(root: &serde_yaml::Value, sink: &mut Sink) -> Option<IncidentFile> {
+fn read_sections(
+    root: &serde_yaml::Value,
+    sink: &mut Sink,
+    unread: &mut Unread,
+) -> Option<IncidentFile> {
     use serde_yaml::Value;
     let map = match root {
         Value::Mapping(m) => m,
@@ -300,7 +326,7 @@ fn read_sections(root: &serde_yaml::Value, sink: &mut Sink) -> Option<IncidentFi
         Some(v) => piece::<IncidentHeader>(v, "incident", sink),
     }
     .unwrap_or_else(|| {
-        sink.suppress("incident");
+        unread.0.push("incident".to_string());
         IncidentHeader {
             name: sections
                 .get("incident")
@@ -317,27 +343,33 @@ fn read_sections(root: &serde_yaml::Value, sink: &mut Sink) -> Option<IncidentFi
             "missing field `traits` (at least one capability, e.g. `- { id: water, unit: L/min }`)",
         );
     }
-    let traits = list(sections.get("traits"), "traits", sink, |v| TraitFile {
-        id: text_field(v, "id").unwrap_or_default(),
-        label: None,
-        unit: None,
+    let traits = list(sections.get("traits"), "traits", sink, unread, |v| {
+        TraitFile {
+            id: text_field(v, "id").unwrap_or_default(),
+            label: None,
+            unit: None,
+        }
     });
-    let unit_types = list(sections.get("unit_types"), "unit_types", sink, |v| {
-        UnitTypeFile {
+    let unit_types = list(
+        sections.get("unit_types"),
+        "unit_types",
+        sink,
+        unread,
+        |v| UnitTypeFile {
             id: text_field(v, "id").unwrap_or_default(),
             label: None,
             rho: None,
             traits: BTreeMap::new(),
             cost: None,
-        }
-    });
-    let units = list(sections.get("units"), "units", sink, |v| UnitFile {
+        },
+    );
+    let units = list(sections.get("units"), "units", sink, unread, |v| UnitFile {
         id: text_field(v, "id").unwrap_or_default(),
         unit_type: text_field(v, "type").unwrap_or_default(),
         traits: BTreeMap::new(),
         status: None,
     });
-    let tasks = list(sections.get("tasks"), "tasks", sink, |v| TaskFile {
+    let tasks = list(sections.get("tasks"), "tasks", sink, unread, |v| TaskFile {
         id: text_field(v, "id").unwrap_or_default(),
         label: None,
         tier: None,
@@ -365,6 +397,7 @@ fn list<T: serde::de::DeserializeOwned>(
     v: Option<&&serde_yaml::Value>,
     path: &str,
     sink: &mut Sink,
+    unread: &mut Unread,
     placeholder: impl Fn(&serde_yaml::Value) -> T,
 ) -> Vec<T> {
     use serde_yaml::Value;
@@ -376,7 +409,7 @@ fn list<T: serde::de::DeserializeOwned>(
             .map(|(i, item)| {
                 let p = format!("{path}[{i}]");
                 piece::<T>(item, &p, sink).unwrap_or_else(|| {
-                    sink.suppress(&p);
+                    unread.0.push(p);
                     placeholder(item)
                 })
             })
@@ -522,8 +555,6 @@ pub struct Sink<'a> {
     pub file: &'a str,
     pub locator: &'a Locator,
     pub out: Vec<Diagnostic>,
-    /// Paths whose element did not read: problems under them are echoes.
-    pub suppressed: Vec<String>,
 }
 
 impl<'a> Sink<'a> {
@@ -532,26 +563,10 @@ impl<'a> Sink<'a> {
             file,
             locator,
             out: Vec::new(),
-            suppressed: Vec::new(),
         }
-    }
-
-    fn is_suppressed(&self, path: &str) -> bool {
-        self.suppressed.iter().any(|s| {
-            path.strip_prefix(s.as_str())
-                .is_some_and(|rest| rest.is_empty() || rest.starts_with(['.', '[']))
-        })
-    }
-
-    /// Problems under `path` are no longer reported.
-    pub fn suppress(&mut self, path: &str) {
-        self.suppressed.push(path.to_string());
     }
 
     fn push(&mut self, path: String, at: Option<(usize, usize)>, message: String) {
-        if self.is_suppressed(&path) {
-            return;
-        }
         let (line, column) = at.map_or((None, None), |(l, c)| (Some(l), Some(c)));
         self.out.push(Diagnostic {
             file: self.file.to_string(),
