@@ -147,3 +147,30 @@ fn a_missing_file_is_bad_input_not_a_panic() {
     assert!(stderr.contains("no/such/incident.yaml"), "{stderr}");
     assert!(!stderr.contains("panicked"));
 }
+
+#[test]
+fn a_log_is_checked_to_its_end() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let log = dir.path().join("flood.log");
+    let sample = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-incidents/river-flood.yaml");
+    Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .arg("start")
+        .arg(&sample)
+        .arg("--log")
+        .arg(&log)
+        .assert()
+        .success();
+    let out = check(&[log.as_os_str()]);
+    let stdout = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(
+        stdout.starts_with("ok: ") && stdout.contains("(log, state at its end)"),
+        "{stdout}"
+    );
+    assert!(stdout.contains("20 units"), "{stdout}");
+}

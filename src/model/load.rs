@@ -114,6 +114,13 @@ pub fn parse_incident_str(text: &str, file: &str) -> Result<Incident, LoadError>
         }
     };
     sink.out.append(&mut reported);
+    // Whatever the index could not place belongs to the document as a whole.
+    for d in &mut sink.out {
+        if d.line.is_none() {
+            d.line = Some(1);
+            d.column = Some(1);
+        }
+    }
     match incident {
         Some(incident) if sink.out.is_empty() => Ok(incident),
         _ => Err(LoadError::Invalid(sink.finish())),
