@@ -131,6 +131,7 @@ pub fn parse_incident_str(text: &str, file: &str) -> Result<Incident, LoadError>
 fn yaml_error(file: &str, e: &serde_yaml::Error) -> Diagnostic {
     let location = e.location();
     let mut message = e.to_string();
+    let mut path = String::new();
     if let Some(l) = &location {
         // The location is printed in front; drop its repetition.
         message = message.replacen(
@@ -140,12 +141,16 @@ fn yaml_error(file: &str, e: &serde_yaml::Error) -> Diagnostic {
         );
     }
     if message.contains("repetition limit exceeded") {
-        message = "YAML aliases expand the file beyond serde_yaml's repetition limit \
-                   (an alias bomb?): refused; write the values out or use fewer aliases"
+        message = "YAML aliases repeat too often for a file this size (an alias bomb?): \
+                   refused; write the values out or use fewer aliases"
             .to_string();
     } else if message.contains("recursion limit exceeded") {
         message = "nesting too deep (recursion limit exceeded): refused (not an incident file?)"
             .to_string();
+    } else if let Some(i) = message.find("YAML tags (") {
+        // serde_yaml puts the field path in front of a visitor's message.
+        path = message[..i].trim_end_matches(": ").to_string();
+        message = message[i..].to_string();
     } else {
         message = format!("YAML syntax: {message}");
     }
@@ -153,7 +158,7 @@ fn yaml_error(file: &str, e: &serde_yaml::Error) -> Diagnostic {
         file: file.to_string(),
         line: location.as_ref().map(|l| l.line()),
         column: location.as_ref().map(|l| l.column()),
-        path: String::new(),
+        path,
         message,
     }
 }
@@ -349,6 +354,8 @@ fn read_sections(
             "",
             "missing field `traits` (at least one capability, e.g. `- { id: water, unit: L/min }`)",
         );
+        // Said once: not again as "at least one trait is required".
+        unread.0.push("traits".to_string());
     }
     let traits = list(sections.get("traits"), "traits", sink, unread, |v| {
         TraitFile {
