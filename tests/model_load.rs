@@ -128,7 +128,10 @@ fn io_errors_name_the_file() {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig::with_cases(300))]
+    // More cases for a longer hunt: MODEL_FUZZ_CASES=20000 cargo test --test model_load
+    #![proptest_config(ProptestConfig::with_cases(
+        std::env::var("MODEL_FUZZ_CASES").ok().and_then(|v| v.parse().ok()).unwrap_or(300)
+    ))]
 
     /// Random edits of a valid file (characters that matter to YAML) never
     /// make the loader panic, and every problem it reports is located.
