@@ -26,6 +26,17 @@ fn incident(units: usize, tasks: usize, traits: usize, seed: u64) -> Incident {
     }
 }
 
+/// Every unit a little different from every other (means scaled by
+/// 1 + 0.001·i): no two units are interchangeable.
+fn distinct(mut inc: Incident) -> Incident {
+    for (i, u) in inc.units.iter_mut().enumerate() {
+        for r in &mut u.ratings {
+            r.mean *= 1.0 + 0.001 * (i + 1) as f64;
+        }
+    }
+    inc
+}
+
 /// Every unit back to its type's ratings and in service: many identical units.
 fn identical(mut inc: Incident) -> Incident {
     for u in &mut inc.units {
@@ -90,41 +101,47 @@ fn fmt_key(k: &ObjectiveKey) -> String {
 }
 
 fn figures() {
-    println!("== proof reach (from scratch, 3 tasks x 2 traits) ==");
+    println!("== proof reach (from scratch, exact search at any size) ==");
+    let sizes = [
+        (12, 3, 2),
+        (20, 4, 2),
+        (30, 6, 3),
+        (35, 7, 3),
+        (40, 8, 3),
+        (50, 10, 3),
+        (60, 12, 3),
+        (80, 15, 4),
+        (100, 15, 4),
+        (150, 20, 4),
+    ];
     for ident in [false, true] {
         for budget_s in [1u64, 10] {
-            let mut reach = 0;
-            for units in [6, 8, 10, 12, 14, 16, 18, 20, 24, 28, 32] {
-                let mut inc = incident(units, 3, 2, 11);
-                if ident {
-                    inc = identical(inc);
-                }
-                let r = run(&inc, &scratch(Duration::from_secs(budget_s)));
+            let mut reach = None;
+            for (u, t, k) in sizes {
+                let inc = if ident {
+                    identical(incident(u, t, k, 11))
+                } else {
+                    distinct(incident(u, t, k, 11))
+                };
+                let opts = SolveOptions {
+                    exact_max_units: usize::MAX,
+                    ..scratch(Duration::from_secs(budget_s))
+                };
+                let r = run(&inc, &opts);
                 println!(
-                    "  identical={ident} budget={budget_s}s units={units}: proven={} in {:.1} ms ({} iterations)",
+                    "  identical={ident} budget={budget_s}s {u}x{t}x{k}: proven={} in {:.1} ms ({} iterations)",
                     r.proven_optimal,
                     r.elapsed.as_secs_f64() * 1e3,
                     r.iterations
                 );
                 if r.proven_optimal {
-                    reach = units;
+                    reach = Some((u, t, k));
                 } else {
                     break;
                 }
             }
-            println!(
-                "  => identical={ident} budget={budget_s}s: largest proved {reach} units x 3 tasks"
-            );
+            println!("  => identical={ident} budget={budget_s}s: largest proved {reach:?}");
         }
-    }
-    for (u, t, k) in [(12, 3, 2), (20, 4, 2), (30, 6, 3)] {
-        let inc = incident(u, t, k, 11);
-        let r = run(&inc, &scratch(Duration::from_secs(10)));
-        println!(
-            "  {u}x{t}x{k}: proven={} in {:.1} ms",
-            r.proven_optimal,
-            r.elapsed.as_secs_f64() * 1e3
-        );
     }
 
     println!("== key after a budget, 600 x 40 x 5 (from scratch, seed 0) ==");
@@ -154,6 +171,23 @@ fn figures() {
         first.push(t.elapsed().as_secs_f64() * 1e3);
         let r = run(&after, &replan_options());
         settled.push(r.elapsed.as_secs_f64() * 1e3);
+        let r5 = run(
+            &after,
+            &SolveOptions {
+                budget: Duration::from_millis(5),
+                ..replan_options()
+            },
+        );
+        let same = if r5.key.compare(&r.key) == std::cmp::Ordering::Less {
+            "worse than settled"
+        } else {
+            "as good as settled"
+        };
+        println!(
+            "  seed {seed}: 5 ms budget: {} moves, key {same} ({})",
+            r5.moves.len(),
+            fmt_key(&r5.key)
+        );
         println!(
             "  seed {seed}: first proposal {:.2} ms ({} moves), settled {:.1} ms ({} moves, {})",
             first[first.len() - 1],
