@@ -1,14 +1,33 @@
-//! `oddsboard start` (not built yet).
+//! `oddsboard start FILE --log LOG`: creates a log whose first record is the
+//! incident in FILE. Never overwrites.
 
 use super::CliResult;
+use super::input::{actor, load_state};
+use crate::log::LogWriter;
 use std::path::PathBuf;
 
 #[derive(Debug, clap::Args)]
 pub struct Args {
-    /// Incident file or log.
+    /// Incident file (or a log: its state at the end starts the new log).
     pub file: PathBuf,
+    /// The log to create; refused if it exists.
+    #[arg(long)]
+    pub log: PathBuf,
+    /// Who opens the log (default: $USER, else "operator").
+    #[arg(long)]
+    pub by: Option<String>,
 }
 
-pub fn run(_args: Args) -> CliResult {
-    anyhow::bail!("`start` is not built yet")
+pub fn run(args: Args) -> CliResult {
+    let incident = load_state(&args.file)?;
+    let writer = LogWriter::create(&args.log, &incident, &actor(args.by))?;
+    let s = writer.state();
+    println!(
+        "started {}: seq 1, incident snapshot of {} ({} units, {} tasks)",
+        args.log.display(),
+        s.name,
+        s.units.len(),
+        s.tasks.len()
+    );
+    Ok(())
 }

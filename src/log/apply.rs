@@ -1,0 +1,435 @@
+//! One step of the fold: an event applied to the incident state.
+//!
+//! [`apply`] checks everything first and changes the state only when the
+//! whole event applies, so a refused event leaves the state as it was.
+//!
+//! The ground placement changes only through `moved`, `plan_accepted`,
+//! `unit_lost`, `unit_status` and `task_closed` (SPEC §4). A pin binds the
+//! plan, not the ground: `pinned` never moves a unit.
+
+use super::event::{Event, Move, OutcomeValue, StatusValue};
+use crate::model::load::{Sink, convert_task, convert_unit};
+use crate::model::locate::Locator;
+use crate::model::{Incident, Need, Outcome, Placement, TaskIdx, UnitIdx, UnitStatus};
+
+/// Why an event does not apply to the state.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum ApplyError {
+    #[error("unknown unit `{0}`")]
+    UnknownUnit(String),
+    #[error("unknown task `{0}`")]
+    UnknownTask(String),
+    #[error("unknown trait `{0}` (not defined in the incident)")]
+    UnknownTrait(String),
+    /// A field with a value the event cannot take.
+    #[error("{field}: {message}")]
+    BadField { field: String, message: String },
+    /// The event breaks a constraint or does not fit the state.
+    #[error("{0}")]
+    DoesNotApply(String),
+}
+
+fn refuse<T>(msg: impl Into<String>) -> Result<T, ApplyError> {
+    Err(ApplyError::DoesNotApply(msg.into()))
+}
+
+fn unit_of(state: &Incident, id: &str) -> Result<UnitIdx, ApplyError> {
+    state
+        .unit_idx(id)
+        .ok_or_else(|| ApplyError::UnknownUnit(id.to_string()))
+}
+
+fn task_of(state: &Incident, id: &str) -> Result<TaskIdx, ApplyError> {
+    state
+        .task_idx(id)
+        .ok_or_else(|| ApplyError::UnknownTask(id.to_string()))
+}
+
+fn trait_of(state: &Incident, id: &str) -> Result<usize, ApplyError> {
+    state
+        .trait_idx(id)
+        .ok_or_else(|| ApplyError::UnknownTrait(id.to_string()))
+}
+
+fn amount(field: &str, v: f64) -> Result<f64, ApplyError> {
+    if !v.is_finite() || v < 0.0 {
+        return Err(ApplyError::BadField {
+            field: field.into(),
+            message: format!("must be a finite number ≥ 0, got {v}"),
+        });
+    }
+    Ok(v)
+}
+
+fn task_name(state: &Incident, t: Option<TaskIdx>) -> &str {
+    t.map_or("reserve", |t| state.tasks[t].id.as_str())
+}
+
+/// Units in reserve that could be placed.
+fn reserve_count(state: &Incident, p: &Placement) -> usize {
+    state
+        .units
+        .iter()
+        .enumerate()
+        .filter(|(u, unit)| unit.status == UnitStatus::Available && p.get(*u).is_none())
+        .count()
+}
+
+/// Checks a new ground placement that differs from the current one in
+/// `changed`: each destination takes the unit (status, open task, accepts),
+/// pins hold, no task goes over `max_units`, and the reserve does not drop
+/// below `reserve_min`. A constraint already broken before (e.g. after a unit
+/// was lost) refuses only a change that makes it worse.
+fn check_ground(state: &Incident, new: &Placement, changed: &[UnitIdx]) -> Result<(), ApplyError> {
+    let old = &state.placement;
+    for &u in changed {
+        let unit = &state.units[u];
+        let to = new.get(u);
+        if let Some(&pt) = state.pins.get(&u)
+            && to != Some(pt)
+        {
+            return refuse(format!(
+                "{} is pinned to {}; unpin it before moving it to {}",
+                unit.id,
+                state.tasks[pt].id,
+                task_name(state, to)
+            ));
+        }
+        let Some(t) = to else { continue };
+        let task = &state.tasks[t];
+        if unit.status == UnitStatus::OutOfService {
+            return refuse(format!(
+                "{} is out of service and cannot be placed",
+                unit.id
+            ));
+        }
+        if !task.is_open() {
+            return refuse(format!("task {} is closed", task.id));
+        }
+        if !task.accepts_type(unit.type_idx) {
+            return refuse(format!(
+                "task {} does not accept unit type {} ({})",
+                task.id, state.unit_types[unit.type_idx].id, unit.id
+            ));
+        }
+    }
+    let mut dests: Vec<TaskIdx> = changed.iter().filter_map(|&u| new.get(u)).collect();
+    dests.sort_unstable();
+    dests.dedup();
+    for t in dests {
+        if let Some(max) = state.tasks[t].max_units {
+            let after = new.units_on(t).count();
+            let before = old.units_on(t).count();
+            if after > max as usize && after > before {
+                return refuse(format!(
+                    "task {} takes at most {max} units; this would put {after} on it",
+                    state.tasks[t].id
+                ));
+            }
+        }
+    }
+    let (before, after) = (reserve_count(state, old), reserve_count(state, new));
+    if after < state.reserve_min as usize && after < before {
+        return refuse(format!(
+            "the incident keeps at least {} units in reserve; this would leave {after}",
+            state.reserve_min
+        ));
+    }
+    Ok(())
+}
+
+/// Resolves and checks a list of moves against the ground: every unit known
+/// and listed once, every `from` where the unit is now. Returns the placement
+/// after the moves and the units that change.
+fn resolve_moves(
+    state: &Incident,
+    moves: &[Move],
+) -> Result<(Placement, Vec<UnitIdx>), ApplyError> {
+    let mut new = state.placement.clone();
+    let mut changed = Vec::with_capacity(moves.len());
+    for (i, m) in moves.iter().enumerate() {
+        let u = unit_of(state, &m.unit)?;
+        if changed.contains(&u) {
+            return refuse(format!("moves[{i}]: {} is moved twice", m.unit));
+        }
+        let from = m.from.as_deref().map(|t| task_of(state, t)).transpose()?;
+        let to = m.to.as_deref().map(|t| task_of(state, t)).transpose()?;
+        let now = state.placement.get(u);
+        if from != now {
+            return refuse(format!(
+                "moves[{i}]: {} is on {}, not {} (the ground changed since the plan was made)",
+                m.unit,
+                task_name(state, now),
+                task_name(state, from)
+            ));
+        }
+        new.set(u, to);
+        changed.push(u);
+    }
+    Ok((new, changed))
+}
+
+fn check_pin(state: &Incident, u: UnitIdx, t: TaskIdx) -> Result<(), ApplyError> {
+    let unit = &state.units[u];
+    let task = &state.tasks[t];
+    if state.pins.get(&u) == Some(&t) {
+        return refuse(format!("{} is already pinned to {}", unit.id, task.id));
+    }
+    if unit.status == UnitStatus::OutOfService {
+        return refuse(format!(
+            "{} is out of service and cannot be pinned",
+            unit.id
+        ));
+    }
+    if !task.is_open() {
+        return refuse(format!("task {} is closed", task.id));
+    }
+    if !task.accepts_type(unit.type_idx) {
+        return refuse(format!(
+            "task {} does not accept unit type {} ({})",
+            task.id, state.unit_types[unit.type_idx].id, unit.id
+        ));
+    }
+    if let Some(max) = task.max_units {
+        let pinned = state
+            .pins
+            .iter()
+            .filter(|&(&pu, &pt)| pt == t && pu != u)
+            .count();
+        if pinned + 1 > max as usize {
+            return refuse(format!(
+                "task {} takes at most {max} units and {pinned} are already pinned to it",
+                task.id
+            ));
+        }
+    }
+    let available = state
+        .units
+        .iter()
+        .filter(|u| u.status == UnitStatus::Available)
+        .count();
+    let pinned_after = state.pins.len() + usize::from(!state.pins.contains_key(&u));
+    if available.saturating_sub(pinned_after) < state.reserve_min as usize {
+        return refuse(format!(
+            "the incident keeps at least {} units in reserve; this pin would leave {} unpinned",
+            state.reserve_min,
+            available.saturating_sub(pinned_after)
+        ));
+    }
+    Ok(())
+}
+
+fn new_sink<'a>(locator: &'a Locator, what: &'a str) -> Sink<'a> {
+    Sink {
+        file: what,
+        locator,
+        out: Vec::new(),
+    }
+}
+
+fn sink_error(sink: Sink) -> ApplyError {
+    let msgs: Vec<String> = sink
+        .out
+        .iter()
+        .map(|d| format!("{}: {}", d.path, d.message))
+        .collect();
+    ApplyError::DoesNotApply(msgs.join("; "))
+}
+
+/// Applies one event to `state`. Refuses what does not apply, and then the
+/// state is unchanged.
+pub fn apply(state: &mut Incident, event: &Event) -> Result<(), ApplyError> {
+    match event {
+        Event::IncidentOpened { .. } => {
+            refuse("an incident snapshot can only be the first record of a log")
+        }
+        Event::UnitLost { unit, .. } => {
+            let u = unit_of(state, unit)?;
+            state.remove_unit(u);
+            Ok(())
+        }
+        Event::UnitAdded { unit } => {
+            if unit.id.trim().is_empty() {
+                return Err(ApplyError::BadField {
+                    field: "unit.id".into(),
+                    message: "must not be empty".into(),
+                });
+            }
+            if state.unit_idx(&unit.id).is_some() {
+                return refuse(format!(
+                    "a unit with id `{}` is already on the roster",
+                    unit.id
+                ));
+            }
+            let locator = Locator::new("");
+            let mut sink = new_sink(&locator, "unit_added");
+            match convert_unit(state, unit, "unit", &mut sink) {
+                Some(u) if sink.out.is_empty() => {
+                    state.add_unit(u);
+                    Ok(())
+                }
+                _ => Err(sink_error(sink)),
+            }
+        }
+        Event::UnitRerated {
+            unit,
+            trait_id,
+            mean,
+            sd,
+        } => {
+            let u = unit_of(state, unit)?;
+            let k = trait_of(state, trait_id)?;
+            if mean.is_none() && sd.is_none() {
+                return refuse("unit_rerated needs a mean, an sd or both");
+            }
+            let mean = mean.map(|m| amount("mean", m)).transpose()?;
+            let sd = sd.map(|s| amount("sd", s)).transpose()?;
+            let r = &mut state.units[u].ratings[k];
+            if let Some(m) = mean {
+                r.mean = m;
+            }
+            if let Some(s) = sd {
+                r.sd = s;
+            }
+            Ok(())
+        }
+        Event::UnitStatus { unit, status } => {
+            let u = unit_of(state, unit)?;
+            let new = match status {
+                StatusValue::Available => UnitStatus::Available,
+                StatusValue::OutOfService => UnitStatus::OutOfService,
+            };
+            if state.units[u].status == new {
+                return refuse(format!("{unit} is already {}", new.as_str()));
+            }
+            state.units[u].status = new;
+            if new == UnitStatus::OutOfService {
+                state.placement.set(u, None);
+                state.pins.remove(&u);
+            }
+            Ok(())
+        }
+        Event::TaskAdded { task } => {
+            if task.id.trim().is_empty() {
+                return Err(ApplyError::BadField {
+                    field: "task.id".into(),
+                    message: "must not be empty".into(),
+                });
+            }
+            if state.task_idx(&task.id).is_some() {
+                return refuse(format!(
+                    "a task with id `{}` is already on the board",
+                    task.id
+                ));
+            }
+            if task.outcome.is_some() {
+                return Err(ApplyError::BadField {
+                    field: "task.outcome".into(),
+                    message: "a new task cannot already be closed".into(),
+                });
+            }
+            let locator = Locator::new("");
+            let mut sink = new_sink(&locator, "task_added");
+            match convert_task(state, task, "task", &mut sink) {
+                Some(t) if sink.out.is_empty() => {
+                    state.tasks.push(t);
+                    Ok(())
+                }
+                _ => Err(sink_error(sink)),
+            }
+        }
+        Event::NeedChanged {
+            task,
+            trait_id,
+            need,
+            sd,
+        } => {
+            let t = task_of(state, task)?;
+            let k = trait_of(state, trait_id)?;
+            if !state.tasks[t].is_open() {
+                return refuse(format!("task {task} is closed"));
+            }
+            let need = amount("need", *need)?;
+            let sd = amount("sd", sd.unwrap_or(0.0))?;
+            state.tasks[t].needs[k] = Need { need, sd };
+            Ok(())
+        }
+        Event::TaskClosed { task, outcome } => {
+            let t = task_of(state, task)?;
+            if let Some(o) = state.tasks[t].outcome {
+                return refuse(format!("task {task} is already closed ({})", o.as_str()));
+            }
+            state.tasks[t].outcome = Some(match outcome {
+                OutcomeValue::Succeeded => Outcome::Succeeded,
+                OutcomeValue::Failed => Outcome::Failed,
+                OutcomeValue::Cancelled => Outcome::Cancelled,
+            });
+            for p in state.placement.0.iter_mut() {
+                if *p == Some(t) {
+                    *p = None;
+                }
+            }
+            state.pins.retain(|_, pt| *pt != t);
+            Ok(())
+        }
+        Event::Pinned { unit, task } => {
+            let u = unit_of(state, unit)?;
+            let t = task_of(state, task)?;
+            check_pin(state, u, t)?;
+            state.pins.insert(u, t);
+            Ok(())
+        }
+        Event::Unpinned { unit } => {
+            let u = unit_of(state, unit)?;
+            if state.pins.remove(&u).is_none() {
+                return refuse(format!("{unit} is not pinned"));
+            }
+            Ok(())
+        }
+        Event::Moved { unit, to } => {
+            let u = unit_of(state, unit)?;
+            let to = to.as_deref().map(|t| task_of(state, t)).transpose()?;
+            if state.placement.get(u) == to {
+                return refuse(format!("{unit} is already on {}", task_name(state, to)));
+            }
+            let mut new = state.placement.clone();
+            new.set(u, to);
+            check_ground(state, &new, &[u])?;
+            state.placement = new;
+            Ok(())
+        }
+        Event::PlanProposed { moves } => {
+            let (new, changed) = resolve_moves(state, moves)?;
+            check_ground(state, &new, &changed)
+        }
+        Event::PlanAccepted { moves } => {
+            let (new, changed) = resolve_moves(state, moves)?;
+            check_ground(state, &new, &changed)?;
+            state.placement = new;
+            Ok(())
+        }
+        Event::PlanRejected {} | Event::Note { .. } => Ok(()),
+    }
+}
+
+/// Ids of the units whose tally contribution an event may change (placement
+/// or rating), taken before the event is applied. Used to keep per-task
+/// tallies up to date without rebuilding them.
+pub fn touched_units(state: &Incident, event: &Event) -> Vec<String> {
+    match event {
+        Event::UnitLost { unit, .. }
+        | Event::UnitRerated { unit, .. }
+        | Event::UnitStatus { unit, .. }
+        | Event::Moved { unit, .. } => vec![unit.clone()],
+        Event::PlanAccepted { moves } => moves.iter().map(|m| m.unit.clone()).collect(),
+        Event::TaskClosed { task, .. } => match state.task_idx(task) {
+            Some(t) => state
+                .placement
+                .units_on(t)
+                .map(|u| state.units[u].id.clone())
+                .collect(),
+            None => Vec::new(),
+        },
+        _ => Vec::new(),
+    }
+}

@@ -1,0 +1,286 @@
+//! The timeline: the log replayed record by record, with the odds of the
+//! placement on the ground after each record and the proposal in force.
+//!
+//! The ground odds are kept up to date incrementally: one [`TaskTally`] per
+//! task, and each record removes the units it touches from their task's
+//! tally before it is applied and adds them back after; only the tasks so
+//! touched are read again. Nothing is rebuilt from the whole placement.
+
+use crate::log::apply::touched_units;
+use crate::log::{Event, LogError, Move, Record, Replay};
+use crate::model::{Incident, TaskIdx, Tier};
+use crate::odds::{TaskOdds, TaskTally, tallies};
+use chrono::{DateTime, Utc};
+
+/// Worst odds per tier (index [`Tier::index`]); `None` where a tier has no
+/// open task.
+pub type TierWorst = [Option<f64>; 3];
+
+/// A proposal and its odds, as computed when it was made.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ProposalOdds {
+    /// The record that proposed it (for `--recompute`: the record after
+    /// which it was computed).
+    pub seq: u64,
+    pub moves: Vec<Move>,
+    /// Worst odds per tier if the moves were made.
+    pub worst: TierWorst,
+    /// Worst odds of all open tasks if the moves were made.
+    pub min_odds: Option<f64>,
+}
+
+/// A task closed with an outcome, and the odds the ground gave it just
+/// before it closed.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ClosedTask {
+    pub task: String,
+    pub tier: Tier,
+    pub outcome: crate::log::OutcomeValue,
+    pub predicted: f64,
+}
+
+/// One row of the timeline.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Row {
+    pub seq: u64,
+    pub at: DateTime<Utc>,
+    pub by: String,
+    pub kind: &'static str,
+    /// The event in words.
+    pub words: String,
+    /// Worst ground odds per tier after the record.
+    pub worst: TierWorst,
+    /// Worst ground odds of all open tasks after the record.
+    pub min_odds: Option<f64>,
+    /// The proposal in force after the record (the last `plan_proposed` not
+    /// yet accepted or rejected).
+    pub proposal: Option<ProposalOdds>,
+    /// Set on the `task_closed` rows.
+    pub closed: Option<ClosedTask>,
+}
+
+/// Walks a log record by record. Create it from the snapshot record, then
+/// [`TimelineWalker::step`] each following record in order.
+#[derive(Debug, Clone)]
+pub struct TimelineWalker {
+    replay: Replay,
+    tallies: Vec<TaskTally>,
+    /// Ground odds per task (closed tasks included; they are skipped).
+    odds: Vec<TaskOdds>,
+    proposal: Option<ProposalOdds>,
+}
+
+fn task_odds(state: &Incident, tally: &TaskTally, t: TaskIdx) -> TaskOdds {
+    tally.task_odds(t, &state.tasks[t], state.placement.units_on(t).collect())
+}
+
+/// Worst odds per tier and overall of the open tasks, odds given by `odds_of`.
+pub fn worst_by_tier(
+    state: &Incident,
+    odds_of: impl Fn(TaskIdx) -> f64,
+) -> (TierWorst, Option<f64>) {
+    let mut worst: TierWorst = [None; 3];
+    let mut all: Option<f64> = None;
+    for (t, task) in state.tasks.iter().enumerate() {
+        if !task.is_open() {
+            continue;
+        }
+        let p = odds_of(t);
+        let w = &mut worst[task.tier.index()];
+        *w = Some(w.map_or(p, |x: f64| x.min(p)));
+        all = Some(all.map_or(p, |x: f64| x.min(p)));
+    }
+    (worst, all)
+}
+
+impl TimelineWalker {
+    /// Starts from the snapshot record; returns the walker and its row.
+    pub fn start(first: &Record) -> Result<(TimelineWalker, Row), LogError> {
+        let replay = Replay::start(first)?;
+        let state = &replay.state;
+        let tallies = tallies(state, &state.placement);
+        let odds = (0..state.tasks.len())
+            .map(|t| task_odds(state, &tallies[t], t))
+            .collect();
+        let walker = TimelineWalker {
+            replay,
+            tallies,
+            odds,
+            proposal: None,
+        };
+        let row = walker.row(first, None);
+        Ok((walker, row))
+    }
+
+    /// The state after the last record stepped.
+    pub fn state(&self) -> &Incident {
+        &self.replay.state
+    }
+    /// Notes and pending plan so far.
+    pub fn replay(&self) -> &Replay {
+        &self.replay
+    }
+    /// Ground odds per task after the last record (index = task index).
+    pub fn ground(&self) -> &[TaskOdds] {
+        &self.odds
+    }
+
+    /// Replaces the proposal in force (used by `--recompute`).
+    pub fn set_proposal(&mut self, p: Option<ProposalOdds>) {
+        self.proposal = p;
+    }
+
+    fn row(&self, r: &Record, closed: Option<ClosedTask>) -> Row {
+        let state = &self.replay.state;
+        let (worst, min_odds) = worst_by_tier(state, |t| self.odds[t].odds());
+        Row {
+            seq: r.seq,
+            at: r.at,
+            by: r.by.clone(),
+            kind: r.event.kind(),
+            words: r.event.describe(),
+            worst,
+            min_odds,
+            proposal: self.proposal.clone(),
+            closed,
+        }
+    }
+
+    /// Applies the next record and returns its row. After an error the walker
+    /// must not be used further (the log is damaged).
+    pub fn step(&mut self, r: &Record) -> Result<Row, LogError> {
+        let touched = touched_units(&self.replay.state, &r.event);
+        let mut dirty: Vec<TaskIdx> = Vec::new();
+        let closed = match &r.event {
+            Event::TaskClosed { task, outcome } => {
+                self.replay.state.task_idx(task).map(|t| ClosedTask {
+                    task: task.clone(),
+                    tier: self.replay.state.tasks[t].tier,
+                    outcome: *outcome,
+                    predicted: self.odds[t].odds(),
+                })
+            }
+            _ => None,
+        };
+        // Take the touched units out of their tallies with their old
+        // ratings, before the event changes them.
+        {
+            let state = &self.replay.state;
+            for id in &touched {
+                if let Some(u) = state.unit_idx(id)
+                    && let Some(t) = state.placement.get(u)
+                {
+                    self.tallies[t].remove(state, u);
+                    dirty.push(t);
+                }
+            }
+        }
+        let lost = match &r.event {
+            Event::UnitLost { unit, .. } => self.replay.state.unit_idx(unit),
+            _ => None,
+        };
+        self.replay.step(r)?;
+        let state = &self.replay.state;
+        for id in &touched {
+            if let Some(u) = state.unit_idx(id)
+                && let Some(t) = state.placement.get(u)
+            {
+                self.tallies[t].add(state, u);
+                dirty.push(t);
+            }
+        }
+        match &r.event {
+            Event::TaskAdded { .. } => {
+                let t = state.tasks.len() - 1;
+                self.tallies.push(TaskTally::for_incident(state));
+                self.odds.push(task_odds(state, &self.tallies[t], t));
+            }
+            Event::NeedChanged { task, .. } | Event::TaskClosed { task, .. } => {
+                if let Some(t) = state.task_idx(task) {
+                    dirty.push(t);
+                }
+            }
+            _ => {}
+        }
+        if let Some(lost) = lost {
+            // Unit indices above the lost one shift down by one.
+            for o in &mut self.odds {
+                o.units.retain(|&u| u != lost);
+                o.units
+                    .iter_mut()
+                    .filter(|u| **u > lost)
+                    .for_each(|u| *u -= 1);
+            }
+        }
+        dirty.sort_unstable();
+        dirty.dedup();
+        for t in dirty {
+            self.odds[t] = task_odds(state, &self.tallies[t], t);
+        }
+        match &r.event {
+            Event::PlanProposed { moves } => {
+                self.proposal = Some(self.proposal_odds(r.seq, moves));
+            }
+            Event::PlanAccepted { .. } | Event::PlanRejected {} => self.proposal = None,
+            _ => {}
+        }
+        Ok(self.row(r, closed))
+    }
+
+    /// Odds of the ground with `moves` made, from copies of only the tallies
+    /// the moves touch.
+    pub fn proposal_odds(&self, seq: u64, moves: &[Move]) -> ProposalOdds {
+        let state = &self.replay.state;
+        let mut changed: Vec<(TaskIdx, TaskTally)> = Vec::new();
+        let tally_of = |t: TaskIdx, changed: &mut Vec<(TaskIdx, TaskTally)>| -> usize {
+            if let Some(i) = changed.iter().position(|(ct, _)| *ct == t) {
+                i
+            } else {
+                changed.push((t, self.tallies[t].clone()));
+                changed.len() - 1
+            }
+        };
+        for m in moves {
+            let Some(u) = state.unit_idx(&m.unit) else {
+                continue;
+            };
+            let from = state.placement.get(u);
+            let to = m.to.as_deref().and_then(|t| state.task_idx(t));
+            if let Some(f) = from {
+                let i = tally_of(f, &mut changed);
+                changed[i].1.remove(state, u);
+            }
+            if let Some(t) = to {
+                let i = tally_of(t, &mut changed);
+                changed[i].1.add(state, u);
+            }
+        }
+        let ln = |t: TaskIdx| -> f64 {
+            match changed.iter().find(|(ct, _)| *ct == t) {
+                Some((_, tally)) => tally.ln_odds(&state.tasks[t]).exp(),
+                None => self.odds[t].odds(),
+            }
+        };
+        let (worst, min_odds) = worst_by_tier(state, ln);
+        ProposalOdds {
+            seq,
+            moves: moves.to_vec(),
+            worst,
+            min_odds,
+        }
+    }
+}
+
+/// Replays `records` into rows (the first must be the snapshot).
+pub fn timeline(records: &[Record]) -> Result<Vec<Row>, LogError> {
+    let Some((first, rest)) = records.split_first() else {
+        return Ok(Vec::new());
+    };
+    let (mut walker, row) = TimelineWalker::start(first)?;
+    let mut rows = Vec::with_capacity(records.len());
+    rows.push(row);
+    for r in rest {
+        rows.push(walker.step(r)?);
+    }
+    Ok(rows)
+}
