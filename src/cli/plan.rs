@@ -1,14 +1,425 @@
-//! `oddsboard plan` (not built yet).
+//! `oddsboard plan FILE`: recommends a placement. Prints the moves (unit:
+//! from → to), each task's odds before → after with regime and binding trait,
+//! whether the plan is proven optimal (or the bound on the worst odds), the
+//! time taken, and with `--compare` the baselines side by side. `--json`
+//! prints one document with the fields of SPEC §5.
 
 use super::CliResult;
+use super::input::load_state;
+use super::render::{Columns, footer, format_odds, regime_words, tier_title, wrap};
+use crate::model::{Incident, Placement, Tier};
+use crate::odds::view::{SAFETY_CAUTION, TaskView, placement_view, task_views, worst_by_tier};
+use crate::solver::{
+    Move, ObjectiveKey, SolveOptions, SolveReport, baselines, moves_between, solve,
+};
+use serde::Serialize;
+use std::collections::BTreeMap;
 use std::path::PathBuf;
+use std::sync::atomic::AtomicBool;
+use std::time::{Duration, Instant};
 
 #[derive(Debug, clap::Args)]
 pub struct Args {
-    /// Incident file or log.
+    /// Incident file or log (a log is read to its end).
     pub file: PathBuf,
+    /// Ignore the placement on the ground: plan as if every unit were free.
+    #[arg(long)]
+    pub from_scratch: bool,
+    /// Time the solver may take, in milliseconds.
+    #[arg(long, default_value_t = 1000)]
+    pub budget_ms: u64,
+    /// Seed of the solver's random choices (same seed, same plan).
+    #[arg(long, default_value_t = 0)]
+    pub seed: u64,
+    /// Stability slack: plans within this relative share of the best plan's
+    /// worst odds per tier compete on fewest moves (0.01 = 1 %).
+    #[arg(long, default_value_t = 0.01)]
+    pub slack: f64,
+    /// Show the baselines (expected-value, mean-minus-spread, random) beside
+    /// the recommendation.
+    #[arg(long)]
+    pub compare: bool,
+    /// λ of the mean-minus-spread baseline.
+    #[arg(long, default_value_t = 1.0)]
+    pub lambda: f64,
+    /// Print one JSON document instead of the report.
+    #[arg(long)]
+    pub json: bool,
 }
 
-pub fn run(_args: Args) -> CliResult {
-    anyhow::bail!("`plan` is not built yet")
+#[derive(Serialize)]
+struct MoveView {
+    unit: String,
+    from: Option<String>,
+    to: Option<String>,
+}
+
+#[derive(Serialize)]
+struct RegimeCounts {
+    hedge: usize,
+    gamble: usize,
+}
+
+#[derive(Serialize)]
+struct CompareRow {
+    name: String,
+    /// Worst odds per tier with open tasks (tier → odds).
+    worst_by_tier: BTreeMap<&'static str, f64>,
+    min_odds: f64,
+    /// Odds that every open task succeeds (product; the traits and tasks
+    /// taken as independent).
+    all_tasks_odds: f64,
+    regimes: RegimeCounts,
+    moves: usize,
+    solve_ms: f64,
+    /// This plan's key against the recommendation's: "better", "equal",
+    /// "worse".
+    key_vs_recommended: &'static str,
+}
+
+#[derive(Serialize)]
+struct PlanJson<'a> {
+    incident: &'a str,
+    placement: BTreeMap<String, Option<String>>,
+    moves: Vec<MoveView>,
+    tasks: Vec<TaskView>,
+    tasks_before: Vec<TaskView>,
+    min_odds: f64,
+    min_odds_before: f64,
+    proven_optimal: bool,
+    upper_bound: Option<f64>,
+    solve_ms: f64,
+    iterations: u64,
+    stop: &'static str,
+    seed: u64,
+    slack: f64,
+    from_scratch: bool,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    compare: Option<Vec<CompareRow>>,
+    notes: Vec<String>,
+    caution: &'static str,
+}
+
+fn task_name(incident: &Incident, t: Option<usize>) -> String {
+    t.map_or_else(|| "reserve".to_string(), |t| incident.tasks[t].id.clone())
+}
+
+fn move_views(incident: &Incident, moves: &[Move]) -> Vec<MoveView> {
+    moves
+        .iter()
+        .map(|m| MoveView {
+            unit: incident.units[m.unit].id.clone(),
+            from: m.from.map(|t| incident.tasks[t].id.clone()),
+            to: m.to.map(|t| incident.tasks[t].id.clone()),
+        })
+        .collect()
+}
+
+/// Odds shown from a plain probability.
+fn pct(p: f64) -> String {
+    format_odds(
+        p,
+        (p > 0.0).then(|| p.ln()),
+        (p < 1.0).then(|| (-p).ln_1p()),
+    )
+}
+
+/// The worst task's odds, shown from its own ln values (deep tails too).
+fn worst_cell(tasks: &[TaskView]) -> String {
+    tasks
+        .iter()
+        .min_by(|a, b| {
+            let l = |t: &TaskView| t.ln_odds.unwrap_or(f64::NEG_INFINITY);
+            l(a).total_cmp(&l(b))
+        })
+        .map_or_else(
+            || "-".to_string(),
+            |t| format!("{} ({})", format_odds(t.odds, t.ln_odds, t.ln_fail), t.id),
+        )
+}
+
+fn min_odds(tasks: &[TaskView]) -> f64 {
+    tasks.iter().map(|t| t.odds).fold(1.0, f64::min)
+}
+
+fn compare_row(
+    incident: &Incident,
+    name: &str,
+    placement: &Placement,
+    recommended: &ObjectiveKey,
+    solve_ms: f64,
+) -> CompareRow {
+    let tasks = task_views(incident, placement);
+    let key = ObjectiveKey::of(incident, placement);
+    let worst = worst_by_tier(incident, &tasks)
+        .into_iter()
+        .map(|w| (w.tier, w.odds))
+        .collect();
+    let ln_all: f64 = tasks
+        .iter()
+        .map(|t| t.ln_odds.unwrap_or(f64::NEG_INFINITY))
+        .sum();
+    CompareRow {
+        name: name.to_string(),
+        worst_by_tier: worst,
+        min_odds: min_odds(&tasks),
+        all_tasks_odds: ln_all.exp(),
+        regimes: RegimeCounts {
+            hedge: tasks.iter().filter(|t| t.regime == Some("hedge")).count(),
+            gamble: tasks.iter().filter(|t| t.regime == Some("gamble")).count(),
+        },
+        moves: moves_between(&incident.placement, placement).len(),
+        solve_ms,
+        key_vs_recommended: match key.compare(recommended) {
+            std::cmp::Ordering::Greater => "better",
+            std::cmp::Ordering::Equal => "equal",
+            std::cmp::Ordering::Less => "worse",
+        },
+    }
+}
+
+fn compare_rows(incident: &Incident, args: &Args, report: &SolveReport) -> Vec<CompareRow> {
+    let ms = |d: Duration| d.as_secs_f64() * 1e3;
+    let mut rows = vec![compare_row(
+        incident,
+        "recommended (risk-adaptive)",
+        &report.placement,
+        &report.key,
+        ms(report.elapsed),
+    )];
+    let mut timed = |name: String, f: &dyn Fn() -> Placement| {
+        let start = Instant::now();
+        let p = f();
+        let row = compare_row(incident, &name, &p, &report.key, ms(start.elapsed()));
+        rows.push(row);
+    };
+    timed("expected value (risk-neutral)".into(), &|| {
+        baselines::expected_value(incident)
+    });
+    timed(
+        format!("mean - {}·spread (risk-averse)", args.lambda),
+        &|| baselines::mean_minus_spread(incident, args.lambda),
+    );
+    timed(format!("random feasible (seed {})", args.seed), &|| {
+        baselines::random_feasible(incident, args.seed)
+    });
+    rows.push(compare_row(
+        incident,
+        "on the ground now",
+        &incident.placement,
+        &report.key,
+        0.0,
+    ));
+    rows
+}
+
+/// Notes that depend on the plan (SPEC §8), beside the ones about the tasks.
+fn plan_notes(incident: &Incident, report: &SolveReport, after: &[TaskView]) -> Vec<String> {
+    let mut notes = Vec::new();
+    for m in &report.moves {
+        if let Some(from) = m.from
+            && incident.tasks[from].is_open()
+        {
+            notes.push(format!(
+                "{} would withdraw from {} while it is in progress: confirm disengagement and personnel accountability before moving.",
+                incident.units[m.unit].id, incident.tasks[from].id
+            ));
+        }
+    }
+    for t in after {
+        if t.tier() == Tier::Life && t.regime == Some("gamble") {
+            notes.push(format!(
+                "{} (life safety) stays in the gamble regime even with the best plan: request more resources.",
+                t.id
+            ));
+        }
+    }
+    notes
+}
+
+fn check_args(args: &Args) -> anyhow::Result<()> {
+    if !(0.0..1.0).contains(&args.slack) || args.slack.is_nan() {
+        anyhow::bail!("--slack: must be in [0, 1), got {}", args.slack);
+    }
+    if !args.lambda.is_finite() || args.lambda < 0.0 {
+        anyhow::bail!("--lambda: must be a finite number ≥ 0, got {}", args.lambda);
+    }
+    Ok(())
+}
+
+pub fn run(args: Args) -> CliResult {
+    check_args(&args)?;
+    let incident = load_state(&args.file)?;
+    let options = SolveOptions {
+        budget: Duration::from_millis(args.budget_ms),
+        seed: args.seed,
+        slack: args.slack,
+        from_scratch: args.from_scratch,
+        ..SolveOptions::default()
+    };
+    let cancel = AtomicBool::new(false);
+    let report = solve(&incident, &options, &cancel, &mut |_| {})
+        .map_err(|e| anyhow::anyhow!("{}: {e}", args.file.display()))?;
+    let before = task_views(&incident, &incident.placement);
+    let after = task_views(&incident, &report.placement);
+    let compare = args
+        .compare
+        .then(|| compare_rows(&incident, &args, &report));
+    let notes = plan_notes(&incident, &report, &after);
+    let solve_ms = report.elapsed.as_secs_f64() * 1e3;
+
+    if args.json {
+        let doc = PlanJson {
+            incident: &incident.name,
+            placement: placement_view(&incident, &report.placement),
+            moves: move_views(&incident, &report.moves),
+            min_odds: min_odds(&after),
+            min_odds_before: min_odds(&before),
+            tasks: after,
+            tasks_before: before,
+            proven_optimal: report.proven_optimal,
+            upper_bound: report.upper_bound,
+            solve_ms,
+            iterations: report.iterations,
+            stop: report.stop.as_str(),
+            seed: args.seed,
+            slack: args.slack,
+            from_scratch: args.from_scratch,
+            compare,
+            notes,
+            caution: SAFETY_CAUTION,
+        };
+        println!("{}", serde_json::to_string_pretty(&doc)?);
+        return Ok(());
+    }
+
+    let mut out = String::new();
+    out.push_str(&format!("{}: recommended placement\n", incident.name));
+    let proof = if report.proven_optimal {
+        "proven optimal".to_string()
+    } else {
+        match report.upper_bound {
+            Some(b) => format!(
+                "best found, not proven; no plan can lift the worst odds above {}",
+                pct(b)
+            ),
+            None => "best found, not proven".to_string(),
+        }
+    };
+    out.push_str(&format!(
+        "  {proof}; solved in {solve_ms:.1} ms ({}, seed {}{})\n\n",
+        report.stop.as_str().replace('_', " "),
+        args.seed,
+        if args.from_scratch {
+            ", from scratch"
+        } else {
+            ""
+        }
+    ));
+
+    if report.moves.is_empty() {
+        out.push_str(
+            "Moves: none. The placement on the ground is within the slack of the best plan.\n\n",
+        );
+    } else {
+        out.push_str(&format!("Moves ({}):\n", report.moves.len()));
+        for m in &report.moves {
+            out.push_str(&format!(
+                "  {}: {} → {}\n",
+                incident.units[m.unit].id,
+                task_name(&incident, m.from),
+                task_name(&incident, m.to)
+            ));
+        }
+        out.push('\n');
+    }
+
+    out.push_str("Odds before → after:\n");
+    for tier in Tier::ALL {
+        let rows: Vec<(&TaskView, &TaskView)> = before
+            .iter()
+            .zip(&after)
+            .filter(|(b, _)| b.tier() == tier)
+            .collect();
+        if rows.is_empty() {
+            continue;
+        }
+        out.push_str(&format!(
+            "  {} (secure at {}%)\n",
+            tier_title(tier),
+            incident.secure.get(tier) * 100.0
+        ));
+        let mut cols = Columns::new(
+            &["task", "before", "", "after", "regime", "binding", "units"],
+            &[false, true, false, true, false, false, false],
+        );
+        for (b, a) in rows {
+            cols.push(vec![
+                a.id.clone(),
+                format_odds(b.odds, b.ln_odds, b.ln_fail),
+                "→".into(),
+                format_odds(a.odds, a.ln_odds, a.ln_fail),
+                regime_words(a.regime).to_string(),
+                a.binding_trait.clone().unwrap_or_else(|| "-".into()),
+                a.units.join(" "),
+            ]);
+        }
+        out.push_str(&cols.render(4));
+    }
+    out.push_str(&format!(
+        "\n  Worst odds: {} → {}\n\n",
+        worst_cell(&before),
+        worst_cell(&after)
+    ));
+
+    if let Some(rows) = &compare {
+        out.push_str("Compared (every plan scored by the same odds model):\n");
+        let mut cols = Columns::new(
+            &[
+                "plan",
+                "life",
+                "stab.",
+                "property",
+                "worst",
+                "all tasks",
+                "hedge/gamble",
+                "moves",
+                "ms",
+                "vs rec.",
+            ],
+            &[false, true, true, true, true, true, true, true, true, false],
+        );
+        for r in rows {
+            let tier = |t: &str| {
+                r.worst_by_tier
+                    .get(t)
+                    .map_or_else(|| "-".to_string(), |p| pct(*p))
+            };
+            cols.push(vec![
+                r.name.clone(),
+                tier("life"),
+                tier("stabilization"),
+                tier("property"),
+                pct(r.min_odds),
+                pct(r.all_tasks_odds),
+                format!("{}/{}", r.regimes.hedge, r.regimes.gamble),
+                r.moves.to_string(),
+                format!("{:.1}", r.solve_ms),
+                r.key_vs_recommended.to_string(),
+            ]);
+        }
+        out.push_str(&cols.render(2));
+        out.push('\n');
+    }
+
+    if !notes.is_empty() {
+        out.push_str("Before moving:\n");
+        for n in &notes {
+            out.push_str(&wrap(n, 76, "  ! "));
+        }
+        out.push('\n');
+    }
+    out.push_str(&footer(&after));
+    print!("{out}");
+    Ok(())
 }

@@ -175,6 +175,18 @@ fn binding_cells(t: &TaskView) -> (String, String, String) {
     (b.trait_id.clone(), z, margin)
 }
 
+/// Unit ids, the first few only when many (the JSON carries them all).
+pub fn unit_list(units: &[String]) -> String {
+    const SHOWN: usize = 6;
+    if units.is_empty() {
+        "-".to_string()
+    } else if units.len() <= SHOWN + 1 {
+        units.join(" ")
+    } else {
+        format!("{} +{} more", units[..SHOWN].join(" "), units.len() - SHOWN)
+    }
+}
+
 fn shorten(s: &str, max: usize) -> String {
     if s.chars().count() <= max {
         s.to_string()
@@ -208,11 +220,7 @@ pub fn task_table(tasks: &[TaskView], worst: &[TierWorst], opts: TableOptions) -
         );
         for t in &in_tier {
             let (binding, z, margin) = binding_cells(t);
-            let units = if t.units.is_empty() {
-                "-".to_string()
-            } else {
-                t.units.join(" ")
-            };
+            let units = unit_list(&t.units);
             cols.push(vec![
                 t.id.clone(),
                 shorten(&t.label, 28),

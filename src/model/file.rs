@@ -135,3 +135,160 @@ pub struct TaskFile {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub outcome: Option<String>,
 }
+
+impl IncidentFile {
+    /// The file form of an incident: the snapshot written as the first record
+    /// of a log, and what `start` and the dashboard save.
+    ///
+    /// Written minimal but explicit: a unit's `traits` carry only the fields
+    /// where its rating differs from its type (a re-rating); `status` only
+    /// when out of service; `rho`, `reserve_min` and secure levels only when
+    /// they differ from their defaults; needs of 0 with no sd are left out;
+    /// placement lists only placed units (absent means reserve); closed tasks
+    /// keep their `outcome`. Parsing the result gives back an equal incident.
+    pub fn from_incident(incident: &super::Incident) -> IncidentFile {
+        let defaults = super::SecureLevels::default();
+        let secure_of = |tier: super::Tier| {
+            let v = incident.secure.get(tier);
+            (v != defaults.get(tier)).then_some(v)
+        };
+        let secure = SecureFile {
+            life: secure_of(super::Tier::Life),
+            stabilization: secure_of(super::Tier::Stabilization),
+            property: secure_of(super::Tier::Property),
+        };
+        let header = IncidentHeader {
+            name: incident.name.clone(),
+            started: incident.started.clone(),
+            reserve_min: (incident.reserve_min != 0).then_some(i64::from(incident.reserve_min)),
+            secure: (secure != SecureFile::default()).then_some(secure),
+        };
+        let traits = incident
+            .traits
+            .iter()
+            .map(|t| TraitFile {
+                id: t.id.clone(),
+                label: Some(t.label.clone()),
+                unit: (!t.unit.is_empty()).then(|| t.unit.clone()),
+            })
+            .collect();
+        let trait_id = |k: usize| incident.traits[k].id.clone();
+        let unit_types = incident
+            .unit_types
+            .iter()
+            .map(|ty| UnitTypeFile {
+                id: ty.id.clone(),
+                label: Some(ty.label.clone()),
+                rho: (ty.rho != 0.0).then_some(ty.rho),
+                traits: ty
+                    .ratings
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, r)| r.mean != 0.0 || r.sd != 0.0)
+                    .map(|(k, r)| {
+                        (
+                            trait_id(k),
+                            RatingFile {
+                                mean: Some(r.mean),
+                                sd: Some(r.sd),
+                            },
+                        )
+                    })
+                    .collect(),
+                cost: ty.cost,
+            })
+            .collect();
+        let units = incident
+            .units
+            .iter()
+            .map(|u| {
+                let base = &incident.unit_types[u.type_idx].ratings;
+                let traits = u
+                    .ratings
+                    .iter()
+                    .zip(base)
+                    .enumerate()
+                    .filter(|(_, (r, b))| r != b)
+                    .map(|(k, (r, b))| {
+                        (
+                            trait_id(k),
+                            RatingFile {
+                                mean: (r.mean != b.mean).then_some(r.mean),
+                                sd: (r.sd != b.sd).then_some(r.sd),
+                            },
+                        )
+                    })
+                    .collect();
+                UnitFile {
+                    id: u.id.clone(),
+                    unit_type: incident.unit_types[u.type_idx].id.clone(),
+                    traits,
+                    status: (u.status != super::UnitStatus::Available)
+                        .then(|| u.status.as_str().to_string()),
+                }
+            })
+            .collect();
+        let tasks = incident
+            .tasks
+            .iter()
+            .map(|t| TaskFile {
+                id: t.id.clone(),
+                label: Some(t.label.clone()),
+                tier: Some(t.tier.as_str().to_string()),
+                needs: t
+                    .needs
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, n)| n.need != 0.0 || n.sd != 0.0)
+                    .map(|(k, n)| {
+                        let need = if n.sd == 0.0 {
+                            NeedFile::Certain(n.need)
+                        } else {
+                            NeedFile::Uncertain(UncertainNeedFile {
+                                need: n.need,
+                                sd: Some(n.sd),
+                            })
+                        };
+                        (trait_id(k), need)
+                    })
+                    .collect(),
+                accepts: t.accepts.as_ref().map(|list| {
+                    list.iter()
+                        .map(|&ty| incident.unit_types[ty].id.clone())
+                        .collect()
+                }),
+                min_units: t.min_units.map(i64::from),
+                max_units: t.max_units.map(i64::from),
+                outcome: t.outcome.map(|o| o.as_str().to_string()),
+            })
+            .collect();
+        let placement = incident
+            .placement
+            .0
+            .iter()
+            .enumerate()
+            .filter_map(|(u, t)| {
+                t.map(|t| {
+                    (
+                        incident.units[u].id.clone(),
+                        Some(incident.tasks[t].id.clone()),
+                    )
+                })
+            })
+            .collect();
+        let pins = incident
+            .pins
+            .iter()
+            .map(|(&u, &t)| (incident.units[u].id.clone(), incident.tasks[t].id.clone()))
+            .collect();
+        IncidentFile {
+            incident: header,
+            traits,
+            unit_types,
+            units,
+            tasks,
+            placement,
+            pins,
+        }
+    }
+}

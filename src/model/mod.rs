@@ -14,6 +14,7 @@
 //! [`load`].
 
 pub mod file;
+pub mod generate;
 pub mod load;
 pub mod locate;
 

@@ -115,6 +115,21 @@ pub fn trait_odds(trait_idx: usize, mean: f64, unit_var: f64, need: Need) -> Tra
     }
 }
 
+/// ln p_jk alone: the same value as [`trait_odds`]`(..).ln_odds` without
+/// computing z's complement, for the solver's inner loop.
+#[inline]
+pub fn trait_ln_odds(mean: f64, unit_var: f64, need: Need) -> f64 {
+    let var = unit_var.max(0.0) + need.sd * need.sd;
+    let diff = mean - need.need;
+    if var > 0.0 {
+        ln_phi(diff / var.sqrt())
+    } else if diff >= 0.0 {
+        0.0
+    } else {
+        f64::NEG_INFINITY
+    }
+}
+
 /// Full reading of one task.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TaskOdds {
@@ -340,7 +355,7 @@ impl TaskTally {
             .iter()
             .enumerate()
             .filter(|(_, n)| n.counts())
-            .map(|(k, n)| self.trait_odds(k, *n).ln_odds)
+            .map(|(k, n)| trait_ln_odds(self.mean[k], self.unit_var(k), *n))
             .sum()
     }
 

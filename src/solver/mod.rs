@@ -1,1 +1,446 @@
-//! TODO
+//! The solver: recommends the placement with the best [`ObjectiveKey`]
+//! (SPEC §3), exactly with a proof on small incidents and anytime on large
+//! ones, and keeps re-plans stable (few moves from the ground).
+//!
+//! Main items:
+//! * [`ObjectiveKey`]: the one ranking of plans (tiers, secure caps, then all
+//!   tasks uncapped; ln space, tolerance 1e−10).
+//! * [`solve`] with [`SolveOptions`] → [`SolveReport`]: the plan, the moves
+//!   from the ground, the key, whether it is proven optimal, a bound, why it
+//!   stopped. Progress goes to a callback whenever the best key improves.
+//! * [`check_feasible`]: constraints that cannot all be met, as an error
+//!   naming the field.
+//! * [`baselines`]: expected-value, mean-minus-spread and random plans.
+//!
+//! How [`solve`] runs:
+//! 1. start plans (the ground made feasible, the warm start, an empty board)
+//!    are filled greedily (the worst task takes its best reserve unit) and the
+//!    best is kept: a first plan in milliseconds;
+//! 2. local search around the bottleneck task (move in, move out, swap; every
+//!    move scored from the two tallies it touches) with seeded perturbation;
+//! 3. on small incidents (at most [`SolveOptions::exact_max_units`] movable
+//!    units) branch and bound over the units proves the best key
+//!    ([`exact`]);
+//! 4. unless `from_scratch`, the stable re-plan: the fewest moves from the
+//!    ground among plans within the slack of the best (exactly by branch and
+//!    bound when step 3 finished, heuristically otherwise).
+//!
+//! Invariant: the solver never reads the clock except through its budget,
+//! draws random numbers only from generators seeded from the options, and
+//! does no I/O.
+
+pub mod baselines;
+pub mod bound;
+pub mod exact;
+pub mod key;
+pub mod search;
+pub mod stable;
+
+pub use key::ObjectiveKey;
+
+use crate::model::{Incident, Placement, TaskIdx, UnitIdx, UnitStatus};
+use search::{Ctx, SearchLimits, State, greedy_fill, local_search};
+use std::sync::atomic::{AtomicBool, Ordering as AtomicOrdering};
+use std::time::{Duration, Instant};
+
+/// Settings of one solve. Every field's default is given beside it.
+#[derive(Debug, Clone)]
+pub struct SolveOptions {
+    /// Wall-clock budget. Default 1 s.
+    pub budget: Duration,
+    /// Seed of every random choice. Default 0.
+    pub seed: u64,
+    /// Stability slack, relative: plans whose worst capped odds in every tier
+    /// are at least (1 − slack) × the best plan's compete on fewest moves.
+    /// Default 0.01.
+    pub slack: f64,
+    /// Ignore the placement on the ground (no stability). Default false.
+    pub from_scratch: bool,
+    /// A plan to start the search from (e.g. the previous proposal). It does
+    /// not change what counts as a move: moves are always counted from the
+    /// ground. Default `None`.
+    pub warm_start: Option<Placement>,
+    /// Run the exact search when at most this many units can move.
+    /// Default 40 (the search then runs until proof or budget).
+    pub exact_max_units: usize,
+    /// Stop the exact search after this many nodes. Default `u64::MAX`
+    /// (budget only).
+    pub exact_node_limit: u64,
+    /// Stop the anytime search after this many perturbations in a row that
+    /// found nothing better. Default 400.
+    pub stale_rounds: u64,
+}
+
+impl Default for SolveOptions {
+    fn default() -> Self {
+        SolveOptions {
+            budget: Duration::from_secs(1),
+            seed: 0,
+            slack: 0.01,
+            from_scratch: false,
+            warm_start: None,
+            exact_max_units: 40,
+            exact_node_limit: u64::MAX,
+            stale_rounds: 400,
+        }
+    }
+}
+
+/// One unit's change of place. `None` is reserve.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Move {
+    pub unit: UnitIdx,
+    pub from: Option<TaskIdx>,
+    pub to: Option<TaskIdx>,
+}
+
+/// Why a solve ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StopReason {
+    /// The plan is proven optimal.
+    Proved,
+    /// The budget ran out first.
+    BudgetExhausted,
+    /// The caller raised the cancel flag.
+    Cancelled,
+    /// The anytime search stopped finding better plans.
+    NoImprovement,
+}
+
+impl StopReason {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            StopReason::Proved => "proved",
+            StopReason::BudgetExhausted => "budget_exhausted",
+            StopReason::Cancelled => "cancelled",
+            StopReason::NoImprovement => "no_improvement",
+        }
+    }
+}
+
+/// What a solve returns.
+#[derive(Debug, Clone)]
+pub struct SolveReport {
+    pub placement: Placement,
+    /// Moves from `incident.placement` (the ground) to `placement`.
+    pub moves: Vec<Move>,
+    pub key: ObjectiveKey,
+    /// True only when the search proved it: the best key is optimal and
+    /// (unless from scratch) no plan within the slack needs fewer moves.
+    pub proven_optimal: bool,
+    /// An upper bound on the worst odds (over all open tasks) any feasible
+    /// plan can reach.
+    pub upper_bound: Option<f64>,
+    /// Candidate moves scored plus exact-search nodes.
+    pub iterations: u64,
+    pub elapsed: Duration,
+    pub stop: StopReason,
+}
+
+/// Reported whenever the best plan found so far improves.
+pub struct Progress<'a> {
+    pub placement: &'a Placement,
+    pub key: &'a ObjectiveKey,
+    pub elapsed: Duration,
+    pub iterations: u64,
+}
+
+/// An incident whose constraints cannot all be met.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+pub enum SolveError {
+    #[error("{field}: {message}")]
+    Infeasible { field: String, message: String },
+}
+
+fn infeasible(field: String, message: String) -> SolveError {
+    SolveError::Infeasible { field, message }
+}
+
+/// The clock and the cancel flag: the only way the solver learns about time.
+pub struct Budget<'a> {
+    start: Instant,
+    limit: Duration,
+    cancel: &'a AtomicBool,
+}
+
+impl<'a> Budget<'a> {
+    pub fn new(limit: Duration, cancel: &'a AtomicBool) -> Self {
+        Budget {
+            start: Instant::now(),
+            limit,
+            cancel,
+        }
+    }
+    /// A budget ending `fraction` of the way through this one.
+    fn share(&self, fraction: f64) -> Budget<'a> {
+        Budget {
+            start: self.start,
+            limit: self.limit.mul_f64(fraction),
+            cancel: self.cancel,
+        }
+    }
+    pub fn cancelled(&self) -> bool {
+        self.cancel.load(AtomicOrdering::Relaxed)
+    }
+    pub fn exhausted(&self) -> bool {
+        self.cancelled() || self.start.elapsed() >= self.limit
+    }
+    pub fn elapsed(&self) -> Duration {
+        self.start.elapsed()
+    }
+}
+
+/// Every unit whose place differs, in roster order.
+pub fn moves_between(before: &Placement, after: &Placement) -> Vec<Move> {
+    let n = before.len().max(after.len());
+    (0..n)
+        .filter_map(|u| {
+            let (from, to) = (before.get(u), after.get(u));
+            (from != to).then_some(Move { unit: u, from, to })
+        })
+        .collect()
+}
+
+/// Checks that some plan meets every constraint: pins on tasks that can take
+/// the unit, no task pinned over its maximum, enough unpinned available
+/// units for the reserve.
+pub fn check_feasible(incident: &Incident) -> Result<(), SolveError> {
+    let n_tasks = incident.tasks.len();
+    for (&u, &t) in &incident.pins {
+        let Some(unit) = incident.units.get(u) else {
+            return Err(infeasible(
+                format!("pins[{u}]"),
+                "pins a unit that is not on the roster".into(),
+            ));
+        };
+        let field = format!("pins.{}", unit.id);
+        if t >= n_tasks {
+            return Err(infeasible(
+                field,
+                "pinned to a task that does not exist".into(),
+            ));
+        }
+        let task = &incident.tasks[t];
+        if unit.status != UnitStatus::Available {
+            return Err(infeasible(
+                field,
+                format!(
+                    "`{}` is out of service and cannot stay on `{}`",
+                    unit.id, task.id
+                ),
+            ));
+        }
+        if !task.is_open() {
+            return Err(infeasible(field, format!("task `{}` is closed", task.id)));
+        }
+        if !task.accepts_type(unit.type_idx) {
+            return Err(infeasible(
+                field,
+                format!(
+                    "task `{}` does not accept type `{}`",
+                    task.id, incident.unit_types[unit.type_idx].id
+                ),
+            ));
+        }
+    }
+    for (t, task) in incident.tasks.iter().enumerate() {
+        if let Some(max) = task.max_units {
+            let pinned = incident.pins.values().filter(|&&p| p == t).count();
+            if pinned as u32 > max {
+                return Err(infeasible(
+                    format!("tasks[{t}].max_units"),
+                    format!(
+                        "{pinned} units are pinned to `{}` but max_units is {max}",
+                        task.id
+                    ),
+                ));
+            }
+        }
+    }
+    let free = incident
+        .units
+        .iter()
+        .enumerate()
+        .filter(|(u, x)| x.status == UnitStatus::Available && !incident.pins.contains_key(u))
+        .count() as u32;
+    if incident.reserve_min > free {
+        return Err(infeasible(
+            "incident.reserve_min".into(),
+            format!(
+                "reserve_min is {} but only {free} available unpinned units exist",
+                incident.reserve_min
+            ),
+        ));
+    }
+    Ok(())
+}
+
+/// Recommends a placement. See the module docs for the method; the caller
+/// owns the budget (in `options`) and the cancel flag, which is checked
+/// between steps of the search (every few hundred exact-search nodes).
+pub fn solve(
+    incident: &Incident,
+    options: &SolveOptions,
+    cancel: &AtomicBool,
+    on_progress: &mut dyn FnMut(&Progress),
+) -> Result<SolveReport, SolveError> {
+    check_feasible(incident)?;
+    let budget = Budget::new(options.budget, cancel);
+    let ctx = Ctx::new(incident);
+    let inc = incident;
+    let stable = !options.from_scratch;
+    let exact = ctx.movable.len() <= options.exact_max_units;
+
+    let mut iterations = 0u64;
+    let mut report_best = |s: &State, key: &ObjectiveKey, iterations: u64| {
+        on_progress(&Progress {
+            placement: &s.placement(),
+            key,
+            elapsed: budget.elapsed(),
+            iterations,
+        });
+    };
+
+    // 1. Greedy first plans.
+    let mut starts = vec![Placement::all_reserve(inc.units.len())];
+    if stable {
+        starts.push(inc.placement.clone());
+    }
+    if let Some(w) = &options.warm_start
+        && w.len() == inc.units.len()
+    {
+        starts.push(w.clone());
+    }
+    let mut best: Option<(State, ObjectiveKey)> = None;
+    for p in &starts {
+        let mut s = State::new(&ctx, &ctx.repair(p));
+        greedy_fill(&ctx, &mut s);
+        let k = s.key(inc);
+        if best.as_ref().is_none_or(|(_, bk)| k.better_than(bk)) {
+            best = Some((s, k));
+        }
+    }
+    let Some((first, first_key)) = best else {
+        unreachable!("at least one start plan");
+    };
+    report_best(&first, &first_key, 0);
+
+    // 2. Local search. Before an exact search it runs a fixed number of
+    // rounds (no clock); otherwise until its share of the budget ends.
+    let limits = if exact {
+        SearchLimits {
+            stale_rounds: 10,
+            max_rounds: 30,
+        }
+    } else {
+        SearchLimits {
+            stale_rounds: options.stale_rounds,
+            max_rounds: u64::MAX,
+        }
+    };
+    let key_budget = if stable && !exact {
+        budget.share(0.7)
+    } else {
+        budget.share(1.0)
+    };
+    let outcome = local_search(
+        &ctx,
+        first,
+        options.seed,
+        &limits,
+        &key_budget,
+        &mut |s, k, it| report_best(s, k, it),
+    );
+    iterations += outcome.iterations;
+    let mut stopped_by_budget = outcome.stopped_by_budget;
+    let mut best_state = outcome.best;
+    let mut best_key = outcome.best_key;
+
+    // 3. Exact search.
+    let mut key_proven = false;
+    if exact && !budget.exhausted() {
+        let inc_moves = 0;
+        let out = exact::branch_and_bound(
+            &ctx,
+            exact::Goal::Key,
+            Some(exact::Incumbent {
+                state: best_state.clone(),
+                key: best_key.clone(),
+                moves: inc_moves,
+            }),
+            &budget,
+            options.exact_node_limit,
+            &mut |s, k| report_best(s, k, iterations),
+        );
+        iterations += out.nodes;
+        key_proven = out.complete;
+        stopped_by_budget |= !out.complete;
+        if let Some(b) = out.best {
+            best_state = b.state;
+            best_key = b.key;
+        }
+    }
+
+    // 4. Stability.
+    let mut proven = key_proven;
+    let mut chosen = best_state.clone();
+    if stable {
+        let ln_keep = (1.0 - options.slack.clamp(0.0, 1.0)).ln();
+        let thresholds = best_key
+            .worst_capped_ln_per_tier()
+            .map(|w| w.map(|w| w + ln_keep));
+        let ground = &inc.placement;
+        let mut heuristic = stable::stable_plan(&ctx, ground, &best_state, &thresholds, &budget);
+        // Recompute from scratch: the result is scored with fresh sums.
+        heuristic = State::new(&ctx, &heuristic.placement());
+        chosen = heuristic;
+        if key_proven {
+            let g: Vec<Option<TaskIdx>> = (0..inc.units.len()).map(|u| ground.get(u)).collect();
+            let moves = moves_between(ground, &chosen.placement()).len();
+            let k = chosen.key(inc);
+            let out = exact::branch_and_bound(
+                &ctx,
+                exact::Goal::FewestMoves {
+                    ground: g,
+                    thresholds,
+                },
+                Some(exact::Incumbent {
+                    state: chosen.clone(),
+                    key: k,
+                    moves,
+                }),
+                &budget,
+                options.exact_node_limit,
+                &mut |_, _| {},
+            );
+            iterations += out.nodes;
+            proven = out.complete;
+            stopped_by_budget |= !out.complete;
+            if let Some(b) = out.best {
+                chosen = b.state;
+            }
+        }
+    }
+
+    let placement = chosen.placement();
+    let key = ObjectiveKey::of(inc, &placement);
+    let stop = if proven {
+        StopReason::Proved
+    } else if budget.cancelled() {
+        StopReason::Cancelled
+    } else if stopped_by_budget || budget.exhausted() {
+        StopReason::BudgetExhausted
+    } else {
+        StopReason::NoImprovement
+    };
+    Ok(SolveReport {
+        moves: moves_between(&inc.placement, &placement),
+        placement,
+        key,
+        proven_optimal: proven,
+        upper_bound: Some(exact::worst_odds_upper_bound(&ctx)),
+        iterations,
+        elapsed: budget.elapsed(),
+        stop,
+    })
+}

@@ -1,1 +1,30 @@
-//! TODO
+//! The terminal dashboard: `dash` (the commander's), `watch` (the duty
+//! officer's, read-only) and `replay` (the trainer's).
+//!
+//! Built as The Elm Architecture: [`app::AppState`] holds everything shown,
+//! [`app::AppEvent`] is the one closed set of things that can happen,
+//! [`app::update`] is the only state transition and returns
+//! [`app::Effect`]s (append to the log, re-plan, quit) that the runtime
+//! carries out, and [`view::render`] draws the state without changing it.
+//! The app is generic over the ratatui `Backend`, so tests drive it on a
+//! `TestBackend`.
+//!
+//! One file per panel: `panel_tasks`, `panel_units`, `panel_picture`,
+//! `panel_notes`, `panel_log`, `panel_status`, `panel_help`.
+
+pub mod app;
+pub mod board;
+pub mod format;
+pub mod panel_help;
+pub mod panel_log;
+pub mod panel_notes;
+pub mod panel_picture;
+pub mod panel_status;
+pub mod panel_tasks;
+pub mod panel_units;
+pub mod theme;
+pub mod view;
+
+pub use app::{AppEvent, AppState, Effect, Mode, update};
+pub use theme::Theme;
+pub use view::render;

@@ -1,0 +1,403 @@
+//! Exact branch and bound over the units, with proof.
+//!
+//! Depth-first, one unit per level (the largest units first), each unit to
+//! reserve or to a task it may go to. At every node each task's odds are
+//! bounded from above ([`super::bound`]) assuming every unit not yet placed
+//! that it accepts could still join it; the key is monotone in every task's
+//! odds (raising one entry of a vector never lowers its sorted form), so the
+//! key of the vector of bounds bounds the key of every completion, and a node
+//! whose bound key is not better than the incumbent is cut.
+//!
+//! Symmetry: units that are interchangeable (same type, same ratings, same
+//! place on the ground) sit next to each other in the order and take
+//! options in non-decreasing order, so each multiset of choices (a count
+//! vector per group) is visited once.
+//!
+//! Two goals: the best key, and (stable re-plan) the fewest moves from the
+//! ground among plans whose worst capped odds in each tier reach a
+//! threshold, ties to the better key.
+
+use super::Budget;
+use super::bound::{ratio_orders, task_ln_upper_bound};
+use super::key::{ObjectiveKey, cmp_ln, counts, ln_cap};
+use super::search::{Ctx, State, at_least};
+use crate::model::{Placement, TaskIdx, UnitIdx};
+use std::collections::HashMap;
+
+/// What the search optimises.
+pub enum Goal {
+    /// The best key.
+    Key,
+    /// Fewest moves from `ground` among plans whose worst capped ln odds in
+    /// each tier is at least the threshold; ties to the better key.
+    FewestMoves {
+        ground: Vec<Option<TaskIdx>>,
+        thresholds: [Option<f64>; 3],
+    },
+}
+
+pub struct Incumbent {
+    pub state: State,
+    pub key: ObjectiveKey,
+    pub moves: usize,
+}
+
+pub struct ExactOutcome {
+    pub best: Option<Incumbent>,
+    /// The whole tree was searched: the incumbent is optimal.
+    pub complete: bool,
+    pub nodes: u64,
+}
+
+struct Search<'c, 'a> {
+    ctx: &'c Ctx<'a>,
+    goal: Goal,
+    order: Vec<UnitIdx>,
+    /// `same_as_prev[d]`: order[d] is interchangeable with order[d − 1].
+    same_as_prev: Vec<bool>,
+    /// Option preferred first for each unit (incumbent's or ground's).
+    preferred: Vec<Option<TaskIdx>>,
+    free: Vec<bool>,
+    /// Units among the free ones that must move (their ground place is no
+    /// longer allowed), for the moves bound.
+    forced: Vec<bool>,
+    forced_left: usize,
+    ratio: Vec<Vec<UnitIdx>>,
+    best: Option<Incumbent>,
+    nodes: u64,
+    node_limit: u64,
+    aborted: bool,
+    buf: Vec<(f64, f64)>,
+    ub: Vec<f64>,
+}
+
+fn option_index(o: Option<TaskIdx>) -> usize {
+    o.map_or(0, |t| t + 1)
+}
+
+impl Search<'_, '_> {
+    fn thresholds_met(&self, ln: &[f64]) -> bool {
+        let Goal::FewestMoves { thresholds, .. } = &self.goal else {
+            return true;
+        };
+        let inc = self.ctx.inc;
+        (0..inc.tasks.len()).all(|t| {
+            if !counts(inc, t) {
+                return true;
+            }
+            let tier = inc.tasks[t].tier;
+            thresholds[tier.index()].is_none_or(|thr| at_least(ln[t].min(ln_cap(inc, tier)), thr))
+        })
+    }
+
+    fn bound_prunes(&mut self, state: &State, moves: usize) -> bool {
+        let inc = self.ctx.inc;
+        for t in 0..inc.tasks.len() {
+            if !counts(inc, t) {
+                self.ub[t] = 0.0;
+                continue;
+            }
+            let free = &self.free;
+            let allowed = &self.ctx.allowed_on;
+            let may_join = |u: UnitIdx| free[u] && allowed[u][t];
+            self.ub[t] = task_ln_upper_bound(
+                inc,
+                t,
+                &state.tallies[t],
+                &self.ratio,
+                &may_join,
+                &mut self.buf,
+            );
+        }
+        if !self.thresholds_met(&self.ub) {
+            return true;
+        }
+        let Some(best) = &self.best else {
+            return false;
+        };
+        let lower_moves = moves + self.forced_left;
+        if matches!(self.goal, Goal::FewestMoves { .. }) {
+            if lower_moves > best.moves {
+                return true;
+            }
+            if lower_moves < best.moves {
+                return false;
+            }
+        }
+        let ub_key = ObjectiveKey::from_ln_odds(inc, &self.ub);
+        !ub_key.better_than(&best.key)
+    }
+
+    fn leaf(
+        &mut self,
+        state: &State,
+        moves: usize,
+        on_improve: &mut dyn FnMut(&State, &ObjectiveKey),
+    ) {
+        if !self.thresholds_met(&state.ln) {
+            return;
+        }
+        let key = state.key(self.ctx.inc);
+        let better = match &self.best {
+            None => true,
+            Some(b) => match self.goal {
+                Goal::Key => key.better_than(&b.key),
+                Goal::FewestMoves { .. } => {
+                    moves < b.moves || (moves == b.moves && key.better_than(&b.key))
+                }
+            },
+        };
+        if better {
+            on_improve(state, &key);
+            self.best = Some(Incumbent {
+                state: state.clone(),
+                key,
+                moves,
+            });
+        }
+    }
+
+    fn dfs(
+        &mut self,
+        state: &mut State,
+        depth: usize,
+        prev_option: usize,
+        moves: usize,
+        budget: &Budget,
+        on_improve: &mut dyn FnMut(&State, &ObjectiveKey),
+    ) {
+        if self.aborted {
+            return;
+        }
+        self.nodes += 1;
+        if (self.nodes.is_multiple_of(256) && budget.exhausted()) || self.nodes > self.node_limit {
+            self.aborted = true;
+            return;
+        }
+        if depth == self.order.len() {
+            self.leaf(state, moves, on_improve);
+            return;
+        }
+        if self.bound_prunes(state, moves) {
+            return;
+        }
+        let inc = self.ctx.inc;
+        let u = self.order[depth];
+        let min_option = if self.same_as_prev[depth] {
+            prev_option
+        } else {
+            0
+        };
+        let mut options: Vec<Option<TaskIdx>> = Vec::with_capacity(self.ctx.allowed[u].len() + 1);
+        let pref = self.preferred[u];
+        if pref.is_none_or(|t| self.ctx.allowed_on[u][t]) {
+            options.push(pref);
+        }
+        if pref.is_some() {
+            options.push(None);
+        }
+        options.extend(
+            self.ctx.allowed[u]
+                .iter()
+                .map(|&t| Some(t))
+                .filter(|&o| o != pref),
+        );
+        self.free[u] = false;
+        let was_forced = self.forced[u];
+        if was_forced {
+            self.forced_left -= 1;
+        }
+        let ground = match &self.goal {
+            Goal::FewestMoves { ground, .. } => Some(ground[u]),
+            Goal::Key => None,
+        };
+        for o in options {
+            let oi = option_index(o);
+            if oi < min_option {
+                continue;
+            }
+            if let Some(t) = o {
+                if state.tallies[t].count() >= self.ctx.max_units[t]
+                    || state.reserve <= self.ctx.reserve_min
+                {
+                    continue;
+                }
+                state.apply_move(inc, u, Some(t));
+            }
+            let step = usize::from(ground.is_some_and(|g| g != o));
+            self.dfs(state, depth + 1, oi, moves + step, budget, on_improve);
+            if o.is_some() {
+                state.apply_move(inc, u, None);
+            }
+            if self.aborted {
+                break;
+            }
+        }
+        self.free[u] = true;
+        if was_forced {
+            self.forced_left += 1;
+        }
+    }
+}
+
+/// Exhaustive search for `goal` with `incumbent` as the plan to beat.
+pub fn branch_and_bound(
+    ctx: &Ctx,
+    goal: Goal,
+    incumbent: Option<Incumbent>,
+    budget: &Budget,
+    node_limit: u64,
+    on_improve: &mut dyn FnMut(&State, &ObjectiveKey),
+) -> ExactOutcome {
+    let inc = ctx.inc;
+    let n = inc.units.len();
+    // Start: pinned units on their tasks, everything else in reserve.
+    let mut start = Placement::all_reserve(n);
+    for (u, t) in ctx.pinned.iter().enumerate() {
+        start.set(u, *t);
+    }
+    let mut state = State::new(ctx, &start);
+
+    // Units in descending order of their largest share of the board's needs,
+    // interchangeable units side by side.
+    let n_traits = inc.traits.len();
+    let mut total_need = vec![0.0f64; n_traits];
+    for (t, task) in inc.tasks.iter().enumerate() {
+        if counts(inc, t) {
+            for (k, need) in task.needs.iter().enumerate() {
+                total_need[k] += need.need.max(need.sd);
+            }
+        }
+    }
+    let size = |u: UnitIdx| {
+        inc.units[u]
+            .ratings
+            .iter()
+            .enumerate()
+            .map(|(k, r)| {
+                if total_need[k] > 0.0 {
+                    (r.mean + r.sd) / total_need[k]
+                } else {
+                    0.0
+                }
+            })
+            .fold(0.0, f64::max)
+    };
+    let ground_of = |u: UnitIdx| match &goal {
+        Goal::FewestMoves { ground, .. } => ground[u],
+        Goal::Key => None,
+    };
+    let mut groups: HashMap<Vec<u64>, usize> = HashMap::new();
+    let mut group_of = vec![0usize; n];
+    for &u in &ctx.movable {
+        let unit = &inc.units[u];
+        let mut sig = vec![unit.type_idx as u64, option_index(ground_of(u)) as u64];
+        for r in &unit.ratings {
+            sig.push(r.mean.to_bits());
+            sig.push(r.sd.to_bits());
+        }
+        let next = groups.len();
+        group_of[u] = *groups.entry(sig).or_insert(next);
+    }
+    let mut order = ctx.movable.clone();
+    let group_size: Vec<f64> = {
+        let mut s = vec![0.0; groups.len()];
+        for &u in &order {
+            s[group_of[u]] = size(u);
+        }
+        s
+    };
+    order.sort_by(|&a, &b| {
+        group_size[group_of[b]]
+            .partial_cmp(&group_size[group_of[a]])
+            .unwrap_or(std::cmp::Ordering::Equal)
+            .then(group_of[a].cmp(&group_of[b]))
+            .then(a.cmp(&b))
+    });
+    let same_as_prev: Vec<bool> = (0..order.len())
+        .map(|d| d > 0 && group_of[order[d]] == group_of[order[d - 1]])
+        .collect();
+
+    let mut preferred = vec![None; n];
+    match &goal {
+        Goal::Key => {
+            if let Some(b) = &incumbent {
+                preferred.clone_from(&b.state.place);
+            }
+        }
+        Goal::FewestMoves { ground, .. } => preferred.clone_from(ground),
+    }
+    let mut free = vec![false; n];
+    let mut forced = vec![false; n];
+    let mut forced_left = 0;
+    for &u in &order {
+        free[u] = true;
+        if let Goal::FewestMoves { ground, .. } = &goal
+            && let Some(g) = ground[u]
+            && !ctx.allowed_on[u][g]
+        {
+            forced[u] = true;
+            forced_left += 1;
+        }
+    }
+    // Moves of pinned and out-of-service units are fixed.
+    let base_moves = match &goal {
+        Goal::FewestMoves { ground, .. } => (0..n)
+            .filter(|u| !free[*u] && ground[*u] != start.get(*u))
+            .count(),
+        Goal::Key => 0,
+    };
+    let mut search = Search {
+        ctx,
+        goal,
+        order,
+        same_as_prev,
+        preferred,
+        free,
+        forced,
+        forced_left,
+        ratio: ratio_orders(inc),
+        best: incumbent,
+        nodes: 0,
+        node_limit,
+        aborted: false,
+        buf: Vec::new(),
+        ub: vec![0.0; inc.tasks.len()],
+    };
+    search.dfs(&mut state, 0, 0, base_moves, budget, on_improve);
+    ExactOutcome {
+        complete: !search.aborted,
+        nodes: search.nodes,
+        best: search.best,
+    }
+}
+
+/// Upper bound on the worst odds over all open tasks for any feasible plan:
+/// the least of the tasks' bounds with every unit they accept on them.
+pub fn worst_odds_upper_bound(ctx: &Ctx) -> f64 {
+    let inc = ctx.inc;
+    let n = inc.units.len();
+    let mut start = Placement::all_reserve(n);
+    for (u, t) in ctx.pinned.iter().enumerate() {
+        start.set(u, *t);
+    }
+    let state = State::new(ctx, &start);
+    let ratio = ratio_orders(inc);
+    let mut free = vec![false; n];
+    for &u in &ctx.movable {
+        free[u] = true;
+    }
+    let mut buf = Vec::new();
+    let mut worst: f64 = 0.0;
+    for t in 0..inc.tasks.len() {
+        if !counts(inc, t) {
+            continue;
+        }
+        let may_join = |u: UnitIdx| free[u] && ctx.allowed_on[u][t];
+        let ub = task_ln_upper_bound(inc, t, &state.tallies[t], &ratio, &may_join, &mut buf);
+        if cmp_ln(ub, worst) == std::cmp::Ordering::Less {
+            worst = ub;
+        }
+    }
+    worst.exp()
+}

@@ -1,0 +1,558 @@
+//! The anytime search: a greedy first plan, then best-improvement local
+//! search around the bottleneck task (move a unit in, take one out, swap),
+//! with seeded perturbation when it stalls. Every candidate move is scored
+//! from the tallies of the (at most two) tasks it touches, in O(traits), and
+//! ranked with [`compare_change`].
+
+// Index loops over the parallel per-unit arrays read clearer than zipped iterators.
+#![allow(clippy::needless_range_loop)]
+
+use super::key::{LN_TOLERANCE, TaskChange, cmp_ln, compare_change, counts, ln_cap};
+use super::{Budget, ObjectiveKey};
+use crate::model::{Incident, Placement, TaskIdx, UnitIdx, UnitStatus};
+use crate::odds::{TaskTally, tallies};
+use rand::rngs::Xoshiro256PlusPlus;
+use rand::{RngExt, SeedableRng};
+use std::cmp::Ordering;
+
+/// What never changes during one solve: which unit may go where.
+pub struct Ctx<'a> {
+    pub inc: &'a Incident,
+    /// Tasks each unit may be placed on (empty for out-of-service units).
+    pub allowed: Vec<Vec<TaskIdx>>,
+    /// `allowed_on[u][t]`.
+    pub allowed_on: Vec<Vec<bool>>,
+    pub pinned: Vec<Option<TaskIdx>>,
+    /// Units the search may move: available and not pinned.
+    pub movable: Vec<UnitIdx>,
+    pub max_units: Vec<u32>,
+    pub reserve_min: u32,
+}
+
+impl<'a> Ctx<'a> {
+    pub fn new(inc: &'a Incident) -> Self {
+        let n_tasks = inc.tasks.len();
+        let mut allowed = Vec::new();
+        let mut allowed_on = Vec::new();
+        let mut pinned = vec![None; inc.units.len()];
+        for (u, p) in &inc.pins {
+            pinned[*u] = Some(*p);
+        }
+        let mut movable = Vec::new();
+        for u in 0..inc.units.len() {
+            let row: Vec<bool> = (0..n_tasks).map(|t| inc.may_place(u, t)).collect();
+            allowed.push((0..n_tasks).filter(|&t| row[t]).collect());
+            allowed_on.push(row);
+            if inc.units[u].status == UnitStatus::Available && pinned[u].is_none() {
+                movable.push(u);
+            }
+        }
+        Ctx {
+            inc,
+            allowed,
+            allowed_on,
+            pinned,
+            movable,
+            max_units: inc
+                .tasks
+                .iter()
+                .map(|t| t.max_units.unwrap_or(u32::MAX))
+                .collect(),
+            reserve_min: inc.reserve_min,
+        }
+    }
+
+    /// The placement `start` made feasible: pins applied, units that cannot
+    /// stay where they are sent to reserve, tasks over their maximum trimmed
+    /// (last units first), reserve refilled (last placed units first).
+    pub fn repair(&self, start: &Placement) -> Placement {
+        let n = self.inc.units.len();
+        let mut p: Vec<Option<TaskIdx>> = (0..n).map(|u| start.get(u)).collect();
+        for u in 0..n {
+            if let Some(t) = self.pinned[u] {
+                p[u] = Some(t);
+            } else if let Some(t) = p[u]
+                && (t >= self.inc.tasks.len() || !self.allowed_on[u][t])
+            {
+                p[u] = None;
+            }
+        }
+        let mut count = vec![0u32; self.inc.tasks.len()];
+        for u in 0..n {
+            if let Some(t) = p[u] {
+                if count[t] >= self.max_units[t] && self.pinned[u].is_none() {
+                    p[u] = None;
+                } else {
+                    count[t] += 1;
+                }
+            }
+        }
+        let mut reserve = self.movable.iter().filter(|&&u| p[u].is_none()).count() as u32;
+        for &u in self.movable.iter().rev() {
+            if reserve >= self.reserve_min {
+                break;
+            }
+            if p[u].is_some() {
+                p[u] = None;
+                reserve += 1;
+            }
+        }
+        Placement(p)
+    }
+}
+
+/// ln odds of a task ignoring `min_units` and the no-unit rule: lets the
+/// greedy fill a task that needs several units before it counts.
+fn ln_odds_ignoring_minimum(tally: &TaskTally, inc: &Incident, t: TaskIdx) -> f64 {
+    inc.tasks[t]
+        .needs
+        .iter()
+        .enumerate()
+        .filter(|(_, n)| n.counts())
+        .map(|(k, n)| tally.trait_odds(k, *n).ln_odds)
+        .sum()
+}
+
+/// A placement with its tallies and per-task ln odds kept in step.
+#[derive(Clone)]
+pub struct State {
+    pub place: Vec<Option<TaskIdx>>,
+    pub tallies: Vec<TaskTally>,
+    pub ln: Vec<f64>,
+    /// Available units in reserve.
+    pub reserve: u32,
+}
+
+impl State {
+    pub fn new(ctx: &Ctx, p: &Placement) -> Self {
+        let tl = tallies(ctx.inc, p);
+        let ln = tl
+            .iter()
+            .zip(&ctx.inc.tasks)
+            .map(|(t, task)| t.ln_odds(task))
+            .collect();
+        let reserve = ctx.movable.iter().filter(|&&u| p.get(u).is_none()).count() as u32;
+        State {
+            place: p.0.clone(),
+            tallies: tl,
+            ln,
+            reserve,
+        }
+    }
+
+    pub fn placement(&self) -> Placement {
+        Placement(self.place.clone())
+    }
+
+    pub fn key(&self, inc: &Incident) -> ObjectiveKey {
+        ObjectiveKey::from_ln_odds(inc, &self.ln)
+    }
+
+    /// Moves unit `u` to `to`, keeping tallies and odds in step.
+    pub fn apply_move(&mut self, inc: &Incident, u: UnitIdx, to: Option<TaskIdx>) {
+        let from = self.place[u];
+        if from == to {
+            return;
+        }
+        if let Some(a) = from {
+            self.tallies[a].remove(inc, u);
+            self.ln[a] = self.tallies[a].ln_odds(&inc.tasks[a]);
+        } else {
+            self.reserve -= 1;
+        }
+        if let Some(b) = to {
+            self.tallies[b].add(inc, u);
+            self.ln[b] = self.tallies[b].ln_odds(&inc.tasks[b]);
+        } else {
+            self.reserve += 1;
+        }
+        self.place[u] = to;
+    }
+
+    /// ln odds task `t` would have with `add` added and `remove` removed,
+    /// leaving the tally as it was.
+    fn try_ln(
+        &mut self,
+        inc: &Incident,
+        t: TaskIdx,
+        add: Option<UnitIdx>,
+        remove: Option<UnitIdx>,
+    ) -> f64 {
+        let tl = &mut self.tallies[t];
+        if let Some(r) = remove {
+            tl.remove(inc, r);
+        }
+        if let Some(a) = add {
+            tl.add(inc, a);
+        }
+        let ln = tl.ln_odds(&inc.tasks[t]);
+        if let Some(a) = add {
+            tl.remove(inc, a);
+        }
+        if let Some(r) = remove {
+            tl.add(inc, r);
+        }
+        ln
+    }
+
+    /// Tasks that count, worst first in the key's order: tasks below their
+    /// tier's secure level by tier, then the rest by ln odds.
+    pub fn bottlenecks(&self, inc: &Incident) -> Vec<TaskIdx> {
+        let mut v: Vec<TaskIdx> = (0..inc.tasks.len()).filter(|&t| counts(inc, t)).collect();
+        let rank = |t: TaskIdx| {
+            let tier = inc.tasks[t].tier;
+            if cmp_ln(self.ln[t], ln_cap(inc, tier)) == Ordering::Less {
+                (0, tier.index())
+            } else {
+                (1, 0)
+            }
+        };
+        v.sort_by(|&a, &b| {
+            rank(a)
+                .cmp(&rank(b))
+                .then(
+                    self.ln[a]
+                        .partial_cmp(&self.ln[b])
+                        .unwrap_or(Ordering::Equal),
+                )
+                .then(a.cmp(&b))
+        });
+        v
+    }
+}
+
+/// A candidate change: one move or a swap, with the tasks it touches.
+#[derive(Clone, Copy, Debug)]
+pub enum Step {
+    Move(UnitIdx, Option<TaskIdx>),
+    Swap(UnitIdx, UnitIdx),
+}
+
+#[derive(Clone, Copy)]
+struct Scored {
+    step: Step,
+    changes: [TaskChange; 2],
+    n: usize,
+}
+
+/// Compares the plans after two candidates (Greater: `a` is better).
+fn cmp_candidates(inc: &Incident, state: &State, a: &Scored, b: &Scored) -> Ordering {
+    let mut ch: [TaskChange; 4] = [TaskChange {
+        task: 0,
+        before: 0.0,
+        after: 0.0,
+    }; 4];
+    let mut n = 0;
+    let value = |s: &Scored, t: TaskIdx| {
+        s.changes[..s.n]
+            .iter()
+            .find(|c| c.task == t)
+            .map_or(state.ln[t], |c| c.after)
+    };
+    for c in a.changes[..a.n].iter().chain(&b.changes[..b.n]) {
+        if ch[..n].iter().any(|x| x.task == c.task) {
+            continue;
+        }
+        ch[n] = TaskChange {
+            task: c.task,
+            before: value(b, c.task),
+            after: value(a, c.task),
+        };
+        n += 1;
+    }
+    compare_change(inc, &ch[..n])
+}
+
+/// Options that shape the local search.
+pub struct SearchLimits {
+    /// Stop after this many perturbations in a row that did not improve the
+    /// best plan.
+    pub stale_rounds: u64,
+    /// Stop after this many perturbation rounds in all (`u64::MAX`: budget
+    /// only). The exact search uses a fixed number so that its start does
+    /// not depend on the clock.
+    pub max_rounds: u64,
+}
+
+pub struct SearchOutcome {
+    pub best: State,
+    pub best_key: ObjectiveKey,
+    pub iterations: u64,
+    pub stopped_by_budget: bool,
+}
+
+/// Fills the plan greedily: repeatedly give the worst task that can be
+/// helped the reserve unit that raises its odds most.
+pub fn greedy_fill(ctx: &Ctx, state: &mut State) {
+    let inc = ctx.inc;
+    loop {
+        if state.reserve <= ctx.reserve_min {
+            return;
+        }
+        let order = state.bottlenecks(inc);
+        let mut done = false;
+        for &t in &order {
+            if state.tallies[t].count() >= ctx.max_units[t] {
+                continue;
+            }
+            let below_min = state.ln[t] == f64::NEG_INFINITY;
+            let base = if below_min {
+                f64::NEG_INFINITY
+            } else {
+                state.ln[t]
+            };
+            let mut best: Option<(UnitIdx, f64)> = None;
+            for &u in &ctx.movable {
+                if state.place[u].is_some() || !ctx.allowed_on[u][t] {
+                    continue;
+                }
+                state.tallies[t].add(inc, u);
+                let ln = if below_min {
+                    ln_odds_ignoring_minimum(&state.tallies[t], inc, t)
+                } else {
+                    state.tallies[t].ln_odds(&inc.tasks[t])
+                };
+                state.tallies[t].remove(inc, u);
+                let improves = below_min || cmp_ln(ln, base) == Ordering::Greater;
+                if improves && best.is_none_or(|(_, b)| cmp_ln(ln, b) == Ordering::Greater) {
+                    best = Some((u, ln));
+                }
+            }
+            if let Some((u, _)) = best {
+                state.apply_move(inc, u, Some(t));
+                done = true;
+                break;
+            }
+        }
+        if !done {
+            return;
+        }
+    }
+}
+
+/// The best improving step around the bottleneck tasks, if any.
+pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<Step> {
+    let inc = ctx.inc;
+    let order = state.bottlenecks(inc);
+    let zero = TaskChange {
+        task: 0,
+        before: 0.0,
+        after: 0.0,
+    };
+    let current = Scored {
+        step: Step::Move(0, None),
+        changes: [zero; 2],
+        n: 0,
+    };
+    for &f in &order {
+        let mut best = current;
+        let consider = |state: &State, s: Scored, best: &mut Scored| {
+            if cmp_candidates(inc, state, &s, best) == Ordering::Greater {
+                *best = s;
+            }
+        };
+        let change = |t: TaskIdx, state: &State, after: f64| TaskChange {
+            task: t,
+            before: state.ln[t],
+            after,
+        };
+        let f_full = state.tallies[f].count() >= ctx.max_units[f];
+        // Moves into f, from reserve or another task.
+        for &u in &ctx.movable {
+            let from = state.place[u];
+            if from == Some(f) || !ctx.allowed_on[u][f] || f_full {
+                continue;
+            }
+            if from.is_none() && state.reserve <= ctx.reserve_min {
+                continue;
+            }
+            *iterations += 1;
+            let after_f = state.try_ln(inc, f, Some(u), None);
+            let mut s = Scored {
+                step: Step::Move(u, Some(f)),
+                changes: [change(f, state, after_f), zero],
+                n: 1,
+            };
+            if let Some(a) = from {
+                let after_a = state.try_ln(inc, a, None, Some(u));
+                s.changes[1] = change(a, state, after_a);
+                s.n = 2;
+            }
+            consider(state, s, &mut best);
+        }
+        // Moves out of f: to reserve or to another task.
+        let on_f: Vec<UnitIdx> = ctx
+            .movable
+            .iter()
+            .copied()
+            .filter(|&u| state.place[u] == Some(f))
+            .collect();
+        for &u in &on_f {
+            let after_f = state.try_ln(inc, f, None, Some(u));
+            *iterations += 1;
+            consider(
+                state,
+                Scored {
+                    step: Step::Move(u, None),
+                    changes: [change(f, state, after_f), zero],
+                    n: 1,
+                },
+                &mut best,
+            );
+            for &g in &ctx.allowed[u] {
+                if g == f || state.tallies[g].count() >= ctx.max_units[g] {
+                    continue;
+                }
+                *iterations += 1;
+                let after_g = state.try_ln(inc, g, Some(u), None);
+                consider(
+                    state,
+                    Scored {
+                        step: Step::Move(u, Some(g)),
+                        changes: [change(f, state, after_f), change(g, state, after_g)],
+                        n: 2,
+                    },
+                    &mut best,
+                );
+            }
+        }
+        // Swaps of a unit on f with one elsewhere (reserve or a task).
+        for &u in &on_f {
+            for &v in &ctx.movable {
+                let b = state.place[v];
+                if b == Some(f) || !ctx.allowed_on[v][f] {
+                    continue;
+                }
+                if let Some(b) = b
+                    && !ctx.allowed_on[u][b]
+                {
+                    continue;
+                }
+                *iterations += 1;
+                let after_f = state.try_ln(inc, f, Some(v), Some(u));
+                let mut s = Scored {
+                    step: Step::Swap(u, v),
+                    changes: [change(f, state, after_f), zero],
+                    n: 1,
+                };
+                if let Some(b) = b {
+                    let after_b = state.try_ln(inc, b, Some(u), Some(v));
+                    s.changes[1] = change(b, state, after_b);
+                    s.n = 2;
+                }
+                consider(state, s, &mut best);
+            }
+        }
+        if best.n > 0 {
+            return Some(best.step);
+        }
+    }
+    None
+}
+
+pub fn apply_step(inc: &Incident, state: &mut State, step: Step) {
+    match step {
+        Step::Move(u, to) => state.apply_move(inc, u, to),
+        Step::Swap(u, v) => {
+            let (a, b) = (state.place[u], state.place[v]);
+            // Through reserve in between, so counts never exceed a maximum.
+            state.apply_move(inc, u, None);
+            state.apply_move(inc, v, a);
+            state.apply_move(inc, u, b);
+        }
+    }
+}
+
+/// Random feasible moves, to leave a local optimum.
+fn perturb(ctx: &Ctx, state: &mut State, rng: &mut Xoshiro256PlusPlus) {
+    if ctx.movable.is_empty() {
+        return;
+    }
+    let inc = ctx.inc;
+    let k = 1 + rng.random_range(0..(ctx.movable.len() / 8).clamp(1, 8) + 1);
+    for _ in 0..k {
+        let u = ctx.movable[rng.random_range(0..ctx.movable.len())];
+        let n_opts = ctx.allowed[u].len() + 1;
+        let pick = rng.random_range(0..n_opts);
+        let to = (pick < ctx.allowed[u].len()).then(|| ctx.allowed[u][pick]);
+        let from = state.place[u];
+        if to == from {
+            continue;
+        }
+        if let Some(t) = to
+            && state.tallies[t].count() >= ctx.max_units[t]
+        {
+            continue;
+        }
+        if from.is_none() && state.reserve <= ctx.reserve_min {
+            continue;
+        }
+        state.apply_move(inc, u, to);
+    }
+}
+
+/// Local search from `start` until the budget ends, it is cancelled, or the
+/// limits say stop. The trajectory depends only on the seed and the limits,
+/// never on the clock, so a larger budget never gives a worse plan.
+pub fn local_search(
+    ctx: &Ctx,
+    start: State,
+    seed: u64,
+    limits: &SearchLimits,
+    budget: &Budget,
+    on_improve: &mut dyn FnMut(&State, &ObjectiveKey, u64),
+) -> SearchOutcome {
+    let inc = ctx.inc;
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed ^ 0x6f64_6473_626f_6172);
+    let mut state = start;
+    let mut best = state.clone();
+    let mut best_key = best.key(inc);
+    let mut iterations = 0u64;
+    let mut stale = 0u64;
+    let mut rounds = 0u64;
+    loop {
+        // Descend to a local optimum.
+        loop {
+            if budget.exhausted() {
+                return SearchOutcome {
+                    best,
+                    best_key,
+                    iterations,
+                    stopped_by_budget: true,
+                };
+            }
+            match best_step(ctx, &mut state, &mut iterations) {
+                Some(step) => apply_step(inc, &mut state, step),
+                None => break,
+            }
+        }
+        // Rebuild the sums from scratch now and then so rounding never piles up.
+        state = State::new(ctx, &state.placement());
+        let key = state.key(inc);
+        if key.better_than(&best_key) {
+            best = state.clone();
+            best_key = key;
+            stale = 0;
+            on_improve(&best, &best_key, iterations);
+        } else {
+            stale += 1;
+            // Restart from the best plan found so far.
+            state = best.clone();
+        }
+        rounds += 1;
+        if stale >= limits.stale_rounds || rounds >= limits.max_rounds {
+            return SearchOutcome {
+                best,
+                best_key,
+                iterations,
+                stopped_by_budget: false,
+            };
+        }
+        perturb(ctx, &mut state, &mut rng);
+    }
+}
+
+/// Tolerance for threshold tests in ln space.
+pub fn at_least(a: f64, threshold: f64) -> bool {
+    a >= threshold - LN_TOLERANCE * threshold.abs().max(1.0)
+}

@@ -1,0 +1,146 @@
+//! Number formatting shared by the panels: odds that stay readable from
+//! 1e−40 to 0.99999, amounts in their trait's own unit, bars of eighths.
+
+/// Odds from their natural log: three decimals in the usual range, four near
+/// certainty, `>0.9999` above that, and a power of ten for tiny odds (worked
+/// from ln so that 1e−300 and below still print).
+pub fn odds_from_ln(ln: f64) -> String {
+    if ln.is_nan() {
+        return "?".into();
+    }
+    if ln == f64::NEG_INFINITY {
+        return "0".into();
+    }
+    let p = ln.exp();
+    if p >= 0.99995 {
+        ">0.9999".into()
+    } else if p >= 0.999 {
+        format!("{p:.4}")
+    } else if p >= 0.001 {
+        format!("{p:.3}")
+    } else {
+        let log10 = ln / std::f64::consts::LN_10;
+        let mut exp = log10.floor();
+        let mut mant = 10f64.powf(log10 - exp);
+        if mant >= 9.95 {
+            mant /= 10.0;
+            exp += 1.0;
+        }
+        format!("{mant:.1}e{exp}")
+    }
+}
+
+/// An amount with a sensible number of digits.
+pub fn amount(x: f64) -> String {
+    if !x.is_finite() {
+        return if x > 0.0 { "∞".into() } else { "-∞".into() };
+    }
+    let a = x.abs();
+    if a >= 100.0 || a == 0.0 {
+        format!("{x:.0}")
+    } else if a >= 10.0 {
+        format!("{x:.1}")
+    } else {
+        format!("{x:.2}")
+    }
+}
+
+/// A surplus (`+`) or shortfall (`-`) with its sign always shown.
+pub fn signed_amount(x: f64) -> String {
+    let s = amount(x);
+    if x >= 0.0 && !s.starts_with('+') {
+        format!("+{s}")
+    } else {
+        s
+    }
+}
+
+/// z as shown beside a task (`z +1.9`, `z -0.4`, `z -∞`).
+pub fn z_value(z: f64) -> String {
+    if z == f64::INFINITY {
+        "z +∞".into()
+    } else if z == f64::NEG_INFINITY {
+        "z -∞".into()
+    } else {
+        format!("z {z:+.1}")
+    }
+}
+
+/// A horizontal bar `width` cells wide filled to `fraction` in eighths; the
+/// unfilled part is a dotted track so an empty bar is still visible without
+/// colour.
+pub fn bar(fraction: f64, width: usize) -> String {
+    const PARTIAL: [&str; 8] = ["", "▏", "▎", "▍", "▌", "▋", "▊", "▉"];
+    let f = if fraction.is_finite() {
+        fraction.clamp(0.0, 1.0)
+    } else {
+        0.0
+    };
+    let eighths = (f * (width * 8) as f64).round() as usize;
+    let full = eighths / 8;
+    let part = eighths % 8;
+    let mut s = "█".repeat(full);
+    let mut used = full;
+    if part > 0 && used < width {
+        s.push_str(PARTIAL[part]);
+        used += 1;
+    }
+    s.push_str(&"·".repeat(width.saturating_sub(used)));
+    s
+}
+
+/// Cuts `s` to at most `width` characters, marking the cut with `…`.
+pub fn fit(s: &str, width: usize) -> String {
+    let n = s.chars().count();
+    if n <= width {
+        s.to_string()
+    } else if width == 0 {
+        String::new()
+    } else {
+        let mut out: String = s.chars().take(width - 1).collect();
+        out.push('…');
+        out
+    }
+}
+
+/// Pads or cuts `s` to exactly `width` characters.
+pub fn pad(s: &str, width: usize) -> String {
+    let cut = fit(s, width);
+    let n = cut.chars().count();
+    format!("{cut}{}", " ".repeat(width - n))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn odds_cover_the_whole_range() {
+        assert_eq!(odds_from_ln(f64::NEG_INFINITY), "0");
+        assert_eq!(odds_from_ln(0.5f64.ln()), "0.500");
+        assert_eq!(odds_from_ln(0.9994f64.ln()), "0.9994");
+        assert_eq!(odds_from_ln(0.99999f64.ln()), ">0.9999");
+        assert_eq!(odds_from_ln(1e-30f64.ln()), "1.0e-30");
+        assert_eq!(odds_from_ln(2.5e-7f64.ln()), "2.5e-7");
+        // Far below f64's range: ln p = −1000 is p ≈ 5.1e−435.
+        assert_eq!(odds_from_ln(-1000.0), "5.1e-435");
+    }
+
+    #[test]
+    fn bars_fill_in_eighths() {
+        assert_eq!(bar(0.0, 4), "····");
+        assert_eq!(bar(1.0, 4), "████");
+        assert_eq!(bar(0.5, 4), "██··");
+        assert_eq!(bar(0.5 + 1.0 / 32.0, 4), "██▏·");
+        assert_eq!(bar(f64::NAN, 3), "···");
+    }
+
+    #[test]
+    fn amounts_carry_their_sign() {
+        assert_eq!(signed_amount(800.0), "+800");
+        assert_eq!(signed_amount(-1200.4), "-1200");
+        assert_eq!(signed_amount(0.25), "+0.25");
+        assert_eq!(pad("abcdef", 4), "abc…");
+        assert_eq!(pad("ab", 4), "ab  ");
+    }
+}

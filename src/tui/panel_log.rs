@@ -1,0 +1,57 @@
+//! The recent log, newest first, under a sparkline of the worst open task's
+//! odds after each record.
+
+use ratatui::Frame;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::text::{Line, Span};
+use ratatui::widgets::{Block, Paragraph, Sparkline};
+
+use super::app::AppState;
+use super::format::{fit, odds_from_ln};
+
+/// Sparkline heights: the worst odds in percent (0–100), last `width` points.
+pub fn spark_points(history: &[f64], width: usize) -> Vec<u64> {
+    let start = history.len().saturating_sub(width);
+    history[start..]
+        .iter()
+        .map(|p| (p.clamp(0.0, 1.0) * 100.0).round() as u64)
+        .collect()
+}
+
+pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
+    let th = &state.theme;
+    let worst = state.worst_history.last().copied().unwrap_or(1.0);
+    let block = Block::bordered().title(format!(
+        " Log · worst odds now {} (scale 0–1) ",
+        odds_from_ln(worst.ln())
+    ));
+    let inner = block.inner(area);
+    frame.render_widget(block, area);
+    let spark_h = if inner.height >= 8 { 2 } else { 1 };
+    let [spark_area, list_area] =
+        Layout::vertical([Constraint::Length(spark_h), Constraint::Fill(1)]).areas(inner);
+    let points = spark_points(&state.worst_history, spark_area.width as usize);
+    frame.render_widget(
+        Sparkline::default()
+            .data(&points)
+            .max(100)
+            .style(th.accent()),
+        spark_area,
+    );
+    let w = list_area.width as usize;
+    let lines: Vec<Line> = state
+        .recent
+        .iter()
+        .rev()
+        .take(list_area.height as usize)
+        .map(|l| {
+            let head = format!("#{:<4} {} {:<5} ", l.seq, l.at, fit(&l.by, 5));
+            let rest = w.saturating_sub(head.chars().count());
+            Line::from(vec![
+                Span::styled(head, th.dim()),
+                Span::raw(fit(&l.text, rest)),
+            ])
+        })
+        .collect();
+    frame.render_widget(Paragraph::new(lines), list_area);
+}

@@ -1,0 +1,127 @@
+//! Operator safety notes: contextual notes where they matter (SPEC §8) and,
+//! always visible at the bottom, the standing caution. Advice lines (fragile
+//! units, resource requests) appear here when the advice module supplies them.
+
+use ratatui::Frame;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::text::Line;
+use ratatui::widgets::{Block, Paragraph, Wrap};
+
+use super::app::AppState;
+use crate::model::Tier;
+use crate::odds::{ForcedZero, Regime};
+
+/// The caution that is always on screen, in the short form used on narrow
+/// terminals.
+pub const STANDING_CAUTION_SHORT: &str = "Decision support only: the odds are only as good as the \
+ratings. Command, procedures and accountability first. Life safety first.";
+
+/// The caution that is always on screen.
+pub const STANDING_CAUTION: &str = "Decision support only. The odds are only as good as the ratings \
+and assume the stated independence. The incident's command, local procedures, codes and standards \
+and personnel accountability come first. Life safety first.";
+
+/// Contextual notes, most urgent first.
+pub fn contextual(state: &AppState) -> Vec<String> {
+    let inc = &state.incident;
+    let mut notes = Vec::new();
+    for lost in state.lost.iter().rev().take(3) {
+        let from = lost
+            .from_task
+            .as_ref()
+            .map(|t| format!(" from {t}"))
+            .unwrap_or_default();
+        notes.push(format!(
+            "{} lost{from} ({}): confirm its crew is accounted for.",
+            lost.unit, lost.reason
+        ));
+    }
+    for o in &state.ground {
+        let task = &inc.tasks[o.task_idx];
+        if !task.is_open() {
+            continue;
+        }
+        if task.tier == Tier::Life && o.regime() == Some(Regime::Gamble) {
+            notes.push(format!(
+                "{} is life safety and short on average: request more resources rather than rely on spread.",
+                task.id
+            ));
+        }
+    }
+    if let Some(p) = &state.proposal {
+        let mut by_task: Vec<(usize, Vec<String>)> = Vec::new();
+        for m in &p.moves {
+            if let Some(from) = m.from {
+                let id = inc.units[m.unit].id.clone();
+                match by_task.iter_mut().find(|(t, _)| *t == from) {
+                    Some((_, v)) => v.push(id),
+                    None => by_task.push((from, vec![id])),
+                }
+            }
+        }
+        for (t, units) in by_task {
+            notes.push(format!(
+                "The proposal withdraws {} from {} while it is in progress: confirm disengagement and accountability before moving.",
+                units.join(", "),
+                inc.tasks[t].id
+            ));
+        }
+    }
+    for o in &state.ground {
+        let task = &inc.tasks[o.task_idx];
+        if task.is_open() && o.forced_zero == Some(ForcedZero::BelowMinimum) {
+            notes.push(format!(
+                "{} has {} of its minimum {} units: it cannot be counted on.",
+                task.id,
+                o.units.len(),
+                task.min_units.unwrap_or_default()
+            ));
+        }
+    }
+    for o in &state.ground {
+        let task = &inc.tasks[o.task_idx];
+        let secure = inc.secure.get(task.tier);
+        if task.is_open()
+            && task.tier == Tier::Life
+            && o.regime() == Some(Regime::Hedge)
+            && o.odds() < secure
+        {
+            notes.push(format!(
+                "{} (life safety) is below its secure level {secure}.",
+                task.id
+            ));
+        }
+    }
+    notes.extend(state.advice.iter().cloned());
+    notes
+}
+
+pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
+    let th = &state.theme;
+    let block = Block::bordered().title(" Safety notes ");
+    let inner = block.inner(area);
+    frame.render_widget(block, area);
+    // The caution keeps its rows whatever the height.
+    let caution = if inner.width >= 56 {
+        STANDING_CAUTION
+    } else {
+        STANDING_CAUTION_SHORT
+    };
+    let caution_rows = (caution.chars().count() as u16 / inner.width.max(1) + 1).clamp(2, 5);
+    let [notes_area, caution_area] =
+        Layout::vertical([Constraint::Fill(1), Constraint::Length(caution_rows)]).areas(inner);
+    let notes = contextual(state);
+    let lines: Vec<Line> = if notes.is_empty() {
+        vec![Line::styled("No contextual notes.", th.dim())]
+    } else {
+        notes
+            .into_iter()
+            .map(|n| Line::styled(format!("! {n}"), th.warning()))
+            .collect()
+    };
+    frame.render_widget(Paragraph::new(lines).wrap(Wrap { trim: true }), notes_area);
+    frame.render_widget(
+        Paragraph::new(Line::styled(caution, th.dim())).wrap(Wrap { trim: true }),
+        caution_area,
+    );
+}

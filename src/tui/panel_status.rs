@@ -1,0 +1,106 @@
+//! The header line (incident, mode, worst task) and the status line (main
+//! keys, the re-plan's progress, the last action's result).
+
+use ratatui::Frame;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::text::{Line, Span};
+use ratatui::widgets::Paragraph;
+
+use super::app::{AppState, Mode, PlanStatus};
+use super::board::worst_open;
+use super::format::{fit, odds_from_ln};
+
+/// The main keys per mode; `?` lists all.
+pub fn key_hint(mode: Mode) -> &'static str {
+    match mode {
+        Mode::Command => {
+            "↑↓ task · y accept · x reject · l lost · a add · r re-rate · n need · m move · p pin · u undo · ? help · q quit"
+        }
+        Mode::Watch => "↑↓ task · PgUp/PgDn units · ? help · q quit · read-only",
+        Mode::Replay => "←→ step · Home/End · g go to · space play · +/- speed · ? help · q quit",
+    }
+}
+
+/// What the re-plan is doing, in words.
+pub fn plan_words(state: &AppState) -> String {
+    let worst = |state: &AppState| {
+        state.proposal.as_ref().and_then(|p| {
+            worst_open(&state.incident, &p.odds).map(|t| odds_from_ln(p.odds[t].ln_odds))
+        })
+    };
+    match &state.plan_status {
+        PlanStatus::Off => String::new(),
+        PlanStatus::Starting => "re-plan: starting…".into(),
+        PlanStatus::Improving { elapsed, .. } => match worst(state) {
+            Some(w) => format!(
+                "re-plan: improving… best so far worst {w} · {:.1} s",
+                elapsed.as_secs_f64()
+            ),
+            None => format!(
+                "re-plan: improving… ground is best so far · {:.1} s",
+                elapsed.as_secs_f64()
+            ),
+        },
+        PlanStatus::Settled { proven_optimal, .. } => {
+            let proof = if *proven_optimal {
+                " (proven best)"
+            } else {
+                ""
+            };
+            match worst(state) {
+                Some(w) => format!("re-plan: done{proof} · worst {w}"),
+                None => format!("re-plan: done{proof} · keep the ground as it is"),
+            }
+        }
+        PlanStatus::Failed(e) => format!("re-plan failed: {e}"),
+    }
+}
+
+pub fn render_header(state: &AppState, frame: &mut Frame, area: Rect) {
+    let th = &state.theme;
+    let inc = &state.incident;
+    let seq = state
+        .recent
+        .back()
+        .map(|l| format!(" · log #{} {}", l.seq, l.at))
+        .unwrap_or_default();
+    let worst = match worst_open(inc, &state.ground) {
+        Some(t) => {
+            let o = &state.ground[t];
+            let regime = o.regime().map(|r| r.as_str()).unwrap_or("no need");
+            format!(
+                "worst task {} {} ({regime})",
+                inc.tasks[t].id,
+                odds_from_ln(o.ln_odds)
+            )
+        }
+        None => "no open task".into(),
+    };
+    let line = Line::from(vec![
+        Span::styled(" oddsboard ", th.selected()),
+        Span::styled(format!(" {} ", state.mode.word()), th.accent()),
+        Span::styled(fit(&inc.name, 40), th.heading()),
+        Span::raw(seq),
+        Span::raw(" · "),
+        Span::raw(worst),
+    ]);
+    frame.render_widget(Paragraph::new(line), area);
+}
+
+pub fn render_status(state: &AppState, frame: &mut Frame, area: Rect) {
+    let th = &state.theme;
+    let plan = plan_words(state);
+    let plan_w = (plan.chars().count() as u16 + 1).min(area.width / 2);
+    let [left, right] =
+        Layout::horizontal([Constraint::Fill(1), Constraint::Length(plan_w)]).areas(area);
+    let left_line = match &state.flash {
+        Some(f) if f.error => Line::styled(format!("✗ {}", f.text), th.error()),
+        Some(f) => Line::styled(format!("✓ {}", f.text), th.secure()),
+        None => Line::styled(key_hint(state.mode), th.dim()),
+    };
+    frame.render_widget(Paragraph::new(left_line), left);
+    frame.render_widget(
+        Paragraph::new(Line::styled(plan, th.accent())).right_aligned(),
+        right,
+    );
+}

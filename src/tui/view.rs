@@ -1,0 +1,79 @@
+//! `render`: the whole screen as a pure function of [`AppState`]. Picks a
+//! layout for the terminal's size (100×30 up to 200×60 and beyond) or, when
+//! the terminal is too small, a plain message instead of a garbled board.
+
+use ratatui::Frame;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::text::Line;
+use ratatui::widgets::{Paragraph, Wrap};
+
+use super::app::{AppState, Overlay};
+use super::{
+    panel_help, panel_log, panel_notes, panel_picture, panel_status, panel_tasks, panel_units,
+};
+
+/// Smallest terminal the board is drawn in.
+pub const MIN_WIDTH: u16 = 100;
+pub const MIN_HEIGHT: u16 = 30;
+
+/// Draws the state. Never mutates it.
+pub fn render(state: &AppState, frame: &mut Frame) {
+    let area = frame.area();
+    if area.width < MIN_WIDTH || area.height < MIN_HEIGHT {
+        render_too_small(state, frame, area);
+        return;
+    }
+    let [header, body, status] = Layout::vertical([
+        Constraint::Length(1),
+        Constraint::Fill(1),
+        Constraint::Length(1),
+    ])
+    .areas(area);
+    panel_status::render_header(state, frame, header);
+    panel_status::render_status(state, frame, status);
+
+    let left_pct = match area.width {
+        0..120 => 62,
+        120..160 => 56,
+        _ => 52,
+    };
+    let [left, right] =
+        Layout::horizontal([Constraint::Percentage(left_pct), Constraint::Fill(1)]).areas(body);
+    // The task board takes what it needs (up to two thirds), the units the rest.
+    let board_lines = panel_tasks::lines(state, left.width.saturating_sub(2) as usize)
+        .0
+        .len() as u16;
+    let tasks_h = (board_lines + 2).clamp(8, left.height * 2 / 3);
+    let [tasks, units] =
+        Layout::vertical([Constraint::Length(tasks_h), Constraint::Fill(1)]).areas(left);
+    panel_tasks::render(state, frame, tasks);
+    panel_units::render(state, frame, units);
+
+    let (picture_h, log) = match body.height {
+        0..36 => (12, Constraint::Length(6)),
+        36..50 => (14, Constraint::Fill(1)),
+        _ => (18, Constraint::Fill(1)),
+    };
+    let [picture, notes, log] =
+        Layout::vertical([Constraint::Length(picture_h), Constraint::Fill(1), log]).areas(right);
+    panel_picture::render(state, frame, picture);
+    panel_notes::render(state, frame, notes);
+    panel_log::render(state, frame, log);
+
+    if state.overlay == Overlay::Help {
+        panel_help::render(state, frame, area);
+    }
+}
+
+fn render_too_small(state: &AppState, frame: &mut Frame, area: Rect) {
+    let text = vec![
+        Line::styled("oddsboard: terminal too small", state.theme.heading()),
+        Line::raw(format!(
+            "This terminal is {}×{}; the board needs at least {MIN_WIDTH}×{MIN_HEIGHT}.",
+            area.width, area.height
+        )),
+        Line::raw("Enlarge the window or use a smaller font."),
+        Line::raw("Nothing is lost: every action is in the log. q quits."),
+    ];
+    frame.render_widget(Paragraph::new(text).wrap(Wrap { trim: true }), area);
+}

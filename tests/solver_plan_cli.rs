@@ -1,0 +1,165 @@
+//! `oddsboard plan` driven as a binary.
+
+use assert_cmd::Command;
+use predicates::prelude::*;
+use std::io::Write;
+
+const INCIDENT: &str = r#"
+incident: { name: Invented warehouse drill }
+traits: [ { id: water, unit: L/min }, { id: crew, unit: people } ]
+unit_types:
+  - { id: engine, traits: { water: { mean: 1900, sd: 250 }, crew: { mean: 4, sd: 0.5 } } }
+  - { id: tender, traits: { water: { mean: 1200, sd: 600 } } }
+units:
+  - { id: E1, type: engine }
+  - { id: E2, type: engine }
+  - { id: W1, type: tender }
+  - { id: W2, type: tender }
+tasks:
+  - { id: T1, tier: life, needs: { water: 2500, crew: 3 } }
+  - { id: T2, tier: property, needs: { water: 1500 } }
+placement: { E1: T2, W1: T1 }
+"#;
+
+fn file(text: &str) -> tempfile::NamedTempFile {
+    let mut f = tempfile::Builder::new()
+        .suffix(".yaml")
+        .tempfile()
+        .expect("temp file");
+    f.write_all(text.as_bytes()).expect("write");
+    f
+}
+
+#[test]
+fn text_report_has_moves_odds_proof_and_caution() {
+    let f = file(INCIDENT);
+    Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args([
+            "plan",
+            f.path().to_str().expect("path"),
+            "--budget-ms",
+            "2000",
+        ])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("Moves ("))
+        .stdout(predicate::str::contains("→"))
+        .stdout(predicate::str::contains("proven optimal"))
+        .stdout(predicate::str::contains("Odds before → after"))
+        .stdout(predicate::str::contains("confirm disengagement"))
+        .stdout(predicate::str::contains("Caution:"));
+}
+
+#[test]
+fn json_has_spec_fields_and_moves_match_placement() {
+    let f = file(INCIDENT);
+    let out = Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args([
+            "plan",
+            f.path().to_str().expect("path"),
+            "--json",
+            "--compare",
+            "--seed",
+            "3",
+        ])
+        .output()
+        .expect("runs");
+    assert!(out.status.success());
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
+    for field in [
+        "placement",
+        "tasks",
+        "min_odds",
+        "moves",
+        "proven_optimal",
+        "upper_bound",
+        "solve_ms",
+        "compare",
+    ] {
+        assert!(v.get(field).is_some(), "missing {field}");
+    }
+    let placement = v["placement"].as_object().expect("object");
+    assert_eq!(placement.len(), 4, "every unit listed");
+    let ground = [
+        ("E1", Some("T2")),
+        ("E2", None),
+        ("W1", Some("T1")),
+        ("W2", None),
+    ];
+    let mut changed = 0;
+    for (unit, was) in ground {
+        let now = placement[unit].as_str();
+        if now != was {
+            changed += 1;
+            let m = v["moves"]
+                .as_array()
+                .expect("moves")
+                .iter()
+                .find(|m| m["unit"] == unit)
+                .expect("a move for each changed unit");
+            assert_eq!(m["to"].as_str(), now);
+            assert_eq!(m["from"].as_str(), was);
+        }
+    }
+    assert_eq!(v["moves"].as_array().expect("moves").len(), changed);
+    assert_eq!(v["proven_optimal"], true);
+    assert_eq!(v["compare"].as_array().expect("rows").len(), 5);
+    assert!(v["tasks"][0]["regime"].is_string());
+}
+
+#[test]
+fn from_scratch_ignores_the_ground() {
+    let f = file(INCIDENT);
+    let out = Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args([
+            "plan",
+            f.path().to_str().expect("path"),
+            "--json",
+            "--from-scratch",
+        ])
+        .output()
+        .expect("runs");
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
+    assert_eq!(v["from_scratch"], true);
+}
+
+#[test]
+fn bad_input_is_located_and_exits_1() {
+    let f = file(&INCIDENT.replace("sd: 250", "sd: -250"));
+    Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args(["plan", f.path().to_str().expect("path")])
+        .assert()
+        .code(1)
+        .stderr(predicate::str::contains("sd"))
+        .stdout(predicate::str::is_empty());
+    Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args(["plan", "/nonexistent/incident.yaml"])
+        .assert()
+        .code(1);
+    let f = file(INCIDENT);
+    Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args(["plan", f.path().to_str().expect("path"), "--slack", "2"])
+        .assert()
+        .code(1)
+        .stderr(predicate::str::contains("--slack"));
+}
+
+#[test]
+fn infeasible_reserve_is_an_input_error() {
+    let f = file(&INCIDENT.replace(
+        "name: Invented warehouse drill",
+        "name: Invented warehouse drill, reserve_min: 9",
+    ));
+    Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args(["plan", f.path().to_str().expect("path")])
+        .assert()
+        .code(1)
+        .stderr(predicate::str::contains("reserve_min"));
+}
