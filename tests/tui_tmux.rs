@@ -113,23 +113,26 @@ fn dash_loss_and_accept_by_keys_then_quit() {
         return;
     }
     let dir = tempfile::tempdir().unwrap();
-    let file = dir.path().join("drill.yaml");
-    std::fs::write(&file, tui_common::DRILL).unwrap();
-    let log = dir.path().join("drill.log");
+    // The shipped sample (invented), copied so its log is created beside it.
+    let sample = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-incidents/warehouse-fire.yaml");
+    let file = dir.path().join("warehouse-fire.yaml");
+    std::fs::copy(&sample, &file).expect("sample incident present");
+    let log = dir.path().join("warehouse-fire.log");
     let s = Session::start(
         "oddsboard-dash",
         &format!("{} dash {} --by ic --budget-ms 300", bin(), file.display()),
     );
     s.wait_for("re-plan: done", Duration::from_secs(20));
     assert!(s.screen().contains("LIFE SAFETY"));
+    assert!(s.screen().contains("rescue-cold-store"));
     assert!(s.screen().contains("Decision support only"));
     s.keys(&["l"]);
     s.wait_for("Mark a unit lost", Duration::from_secs(5));
-    s.text("E1");
+    s.text("E17");
     s.keys(&["Enter"]);
     s.text("pump failure");
     s.keys(&["Enter"]);
-    s.wait_for("E1 lost (pump failure)", Duration::from_secs(5));
+    s.wait_for("E17 lost (pump failure)", Duration::from_secs(5));
     // The re-plan after the loss proposes moves; accept them all.
     s.wait_for("Proposed moves", Duration::from_secs(20));
     s.wait_for("re-plan: done", Duration::from_secs(20));
@@ -147,7 +150,7 @@ fn dash_loss_and_accept_by_keys_then_quit() {
         .iter()
         .position(|e| {
             matches!(e, Event::UnitLost { unit, reason }
-                if unit == "E1" && reason.as_deref() == Some("pump failure"))
+                if unit == "E17" && reason.as_deref() == Some("pump failure"))
         })
         .expect("the loss is in the log");
     let accepted = events
