@@ -26,7 +26,7 @@ pub fn lines(state: &AppState, width: usize) -> (Vec<Line<'static>>, usize) {
         .map(|t| t.id.chars().count())
         .max()
         .unwrap_or(4);
-    let id_w = longest.clamp(4, if width < 70 { 12 } else { 18 }) + 1;
+    let id_w = longest.clamp(4, if width < 64 { 12 } else { 18 }) + 1;
     // marker, id, odds, space after the bar, regime, units, proposal change
     let base = 2 + id_w + 8 + 1 + 9 + 5 + 8;
     let rest = width.saturating_sub(base);

@@ -34,8 +34,8 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     panel_status::render_status(state, frame, status);
 
     let left_pct = match area.width {
-        0..120 => 62,
-        120..160 => 56,
+        0..130 => 62,
+        130..160 => 56,
         _ => 52,
     };
     let [left, right] =
