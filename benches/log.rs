@@ -115,6 +115,11 @@ fn main() {
         runs.min(3),
         || run_bin(&["timeline", "--recompute"], &small),
     );
+    time(
+        "whole process: timeline --recompute (2 ms/record), 1 000 records",
+        runs.min(3),
+        || run_bin(&["timeline", "--recompute", "--budget-ms", "2"], &small),
+    );
     // Appending: lock, catch up, check, write, fsync.
     let incident = generate(&GenerateSpec::new(100, 25, 3).seed(42)).expect("generated");
     let path = dir.path().join("append.log");
