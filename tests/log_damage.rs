@@ -276,8 +276,10 @@ fn read_from_returns_new_complete_records_only() {
     assert!(none.is_empty());
     assert_eq!(same, start.end_offset);
     let mut w = LogWriter::open(&path).expect("open");
-    w.append("radio", ev("{kind: note, text: one}")).expect("append");
-    w.append("radio", ev("{kind: note, text: two}")).expect("append");
+    w.append("radio", ev("{kind: note, text: one}"))
+        .expect("append");
+    w.append("radio", ev("{kind: note, text: two}"))
+        .expect("append");
     // A line still being written (no newline yet) is left for later.
     let mut f = std::fs::OpenOptions::new()
         .append(true)
