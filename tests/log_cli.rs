@@ -124,3 +124,39 @@ fn timeline_formats() {
         .stdout(contains("E2 lost (pump failure)"))
         .stdout(contains("E4 T2→T1"));
 }
+
+#[test]
+fn recomputed_proposals_start_from_the_ground_of_their_row() {
+    use oddsboard::log::{Event, Move, apply, fold};
+    let dir = tempfile::tempdir().expect("tempdir");
+    let path = sample_log(dir.path());
+    let records = read_log(&path).expect("read").records;
+    let out = bin()
+        .arg("timeline")
+        .arg(&path)
+        .args(["--json", "--recompute", "--budget-ms", "20", "--seed", "3"])
+        .output()
+        .expect("runs");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let rows: Vec<serde_json::Value> = serde_json::from_slice(&out.stdout).expect("json");
+    assert_eq!(rows.len(), records.len());
+    for (i, row) in rows.iter().enumerate() {
+        let p = &row["proposal"];
+        assert_eq!(p["seq"], row["seq"], "a re-plan after every record");
+        let moves: Vec<Move> = serde_json::from_value(p["moves"].clone()).expect("moves");
+        // Every re-plan is a valid plan from the ground after its record.
+        let mut state = fold(&records[..=i]).expect("fold");
+        apply(&mut state, &Event::PlanAccepted { moves })
+            .unwrap_or_else(|e| panic!("row {}: proposal does not apply: {e}", i + 1));
+        // Never worse than the ground in the worst life-safety odds capped at
+        // the secure level (0.99), beyond the 1 % stability slack (SPEC §3).
+        let (g, q) = (&row["worst"]["life"], &p["worst"]["life"]);
+        if let (Some(g), Some(q)) = (g.as_f64(), q.as_f64()) {
+            assert!(q >= g.min(0.99) * 0.99 - 1e-12, "row {}: {q} vs {g}", i + 1);
+        }
+    }
+}

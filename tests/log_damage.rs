@@ -61,9 +61,10 @@ fn torn_tail_is_reported_by_the_commands_and_cut_by_the_next_writer() {
         .args(["timeline".as_ref(), path.as_os_str()])
         .assert()
         .success()
-        .stderr(predicates::str::contains(
-            "line 9: torn last record left out",
-        ));
+        .stderr(predicates::str::contains(format!(
+            "{}:9: torn last record (line 9) left out",
+            path.display()
+        )));
     bin()
         .args([
             "record".as_ref(),

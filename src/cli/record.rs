@@ -83,6 +83,9 @@ pub fn run(args: Args) -> CliResult {
 
 fn warn_repair(writer: &LogWriter, log: &str) {
     if let Some(t) = writer.repaired_tail() {
-        eprintln!("warning: {log}:{t}; it was cut off before appending");
+        eprintln!(
+            "warning: {log}:{}: {t}; it was cut off before appending",
+            t.line
+        );
     }
 }
