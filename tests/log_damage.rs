@@ -61,9 +61,10 @@ fn torn_tail_is_reported_by_the_commands_and_cut_by_the_next_writer() {
         .args(["timeline".as_ref(), path.as_os_str()])
         .assert()
         .success()
-        .stderr(predicates::str::contains(
-            "line 9: torn last record left out",
-        ));
+        .stderr(predicates::str::contains(format!(
+            "{}:9: torn last record (line 9) left out",
+            path.display()
+        )));
     bin()
         .args([
             "record".as_ref(),
@@ -263,4 +264,31 @@ fn start_refuses_to_overwrite() {
         .code(1)
         .stderr(predicates::str::contains("already exists"));
     assert_eq!(digest(&path), before);
+}
+
+#[test]
+fn read_from_returns_new_complete_records_only() {
+    use oddsboard::log::{LogWriter, read_from};
+    use std::io::Write;
+    let dir = tempfile::tempdir().expect("tempdir");
+    let path = sample_log(dir.path());
+    let start = read_log(&path).expect("read");
+    let (none, same) = read_from(&path, start.end_offset).expect("nothing new");
+    assert!(none.is_empty());
+    assert_eq!(same, start.end_offset);
+    let mut w = LogWriter::open(&path).expect("open");
+    w.append("radio", ev("{kind: note, text: one}"))
+        .expect("append");
+    w.append("radio", ev("{kind: note, text: two}"))
+        .expect("append");
+    // A line still being written (no newline yet) is left for later.
+    let mut f = std::fs::OpenOptions::new()
+        .append(true)
+        .open(&path)
+        .expect("open raw");
+    f.write_all(b"{\"seq\":12,\"at\"").expect("partial");
+    let (new, end) = read_from(&path, start.end_offset).expect("new records");
+    assert_eq!(new.iter().map(|r| r.seq).collect::<Vec<_>>(), vec![10, 11]);
+    let len = std::fs::metadata(&path).expect("meta").len();
+    assert_eq!(end, len - 14);
 }

@@ -71,4 +71,18 @@ fn brier_score_of_a_small_log_matches_the_hand_value() {
     // The cautions of decision support are there.
     assert!(md.contains("## Cautions"));
     assert!(md.contains("never replaces the incident commander's judgement"));
+
+    let out = assert_cmd::Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .arg("report")
+        .arg(&path)
+        .arg("--json")
+        .output()
+        .expect("runs");
+    assert!(out.status.success());
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("json");
+    let bs = v["brier_score"].as_f64().expect("scored");
+    assert!((bs - HAND_BRIER).abs() < 1e-9, "{bs}");
+    assert_eq!(v["scored_tasks"], 3);
+    assert_eq!(v["outcomes"].as_array().expect("outcomes").len(), 4);
 }

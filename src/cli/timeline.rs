@@ -4,13 +4,16 @@
 use super::CliResult;
 use super::input::read_log_reporting;
 use crate::log::Move;
-use crate::model::Tier;
+use crate::model::{Incident, Placement, Tier};
 use crate::odds::view::{TaskView, task_view};
 use crate::report::fmt_odds;
 use crate::report::timeline::{ProposalOdds, Row, TierWorst, TimelineWalker};
+use crate::solver::{SolveOptions, solve};
 use serde::Serialize;
 use std::io::Write;
 use std::path::PathBuf;
+use std::sync::atomic::AtomicBool;
+use std::time::Duration;
 
 #[derive(Debug, clap::Args)]
 pub struct Args {
@@ -23,6 +26,16 @@ pub struct Args {
     /// `proposal`, …).
     #[arg(long)]
     pub json: bool,
+    /// Instead of the proposals in the log, compute the stable re-plan after
+    /// each record, each warm-started from the one before.
+    #[arg(long)]
+    pub recompute: bool,
+    /// With --recompute: solver budget per record, in milliseconds.
+    #[arg(long, default_value_t = 5)]
+    pub budget_ms: u64,
+    /// With --recompute: seed of the solver.
+    #[arg(long, default_value_t = 0)]
+    pub seed: u64,
 }
 
 pub fn run(args: Args) -> CliResult {
@@ -42,15 +55,93 @@ pub fn run(args: Args) -> CliResult {
     } else {
         Mode::Table
     };
+    let mut replanner = args.recompute.then(|| Replanner {
+        options: SolveOptions {
+            budget: Duration::from_millis(args.budget_ms),
+            seed: args.seed,
+            ..SolveOptions::default()
+        },
+        previous: None,
+    });
     mode.header(&mut out)?;
+    let mut row = row;
+    if let Some(rp) = &mut replanner {
+        row.proposal = rp.replan(&mut walker, first.seq);
+    }
     mode.row(&mut out, &walker, &row, true)?;
     for r in rest {
-        let row = walker.step(r).map_err(|e| e.in_file(&name))?;
+        let mut row = walker.step(r).map_err(|e| e.in_file(&name))?;
+        if let Some(rp) = &mut replanner {
+            row.proposal = rp.replan(&mut walker, r.seq);
+        }
         mode.row(&mut out, &walker, &row, false)?;
     }
     mode.footer(&mut out)?;
     out.flush()?;
     Ok(())
+}
+
+/// The stable re-plan after each record for `--recompute`.
+struct Replanner {
+    options: SolveOptions,
+    /// The previous re-plan by unit id (ids survive units lost or added).
+    previous: Option<Vec<(String, Option<String>)>>,
+}
+
+impl Replanner {
+    fn warm_start(&self, state: &Incident) -> Option<Placement> {
+        let prev = self.previous.as_ref()?;
+        let mut p = state.placement.clone();
+        for (uid, tid) in prev {
+            if let Some(u) = state.unit_idx(uid) {
+                let t = tid.as_deref().and_then(|t| state.task_idx(t));
+                if t.is_none_or(|t| state.may_place(u, t)) {
+                    p.set(u, t);
+                }
+            }
+        }
+        Some(p)
+    }
+
+    fn replan(&mut self, walker: &mut TimelineWalker, seq: u64) -> Option<ProposalOdds> {
+        let state = walker.state();
+        let mut options = self.options.clone();
+        options.warm_start = self.warm_start(state);
+        let cancel = AtomicBool::new(false);
+        let report = solve(state, &options, &cancel, &mut |_| {}).ok();
+        let Some(report) = report else {
+            self.previous = None;
+            walker.set_proposal(None);
+            return None;
+        };
+        let id = |t: Option<usize>| t.map(|t| state.tasks[t].id.clone());
+        self.previous = Some(
+            report
+                .placement
+                .0
+                .iter()
+                .enumerate()
+                .map(|(u, t)| (state.units[u].id.clone(), id(*t)))
+                .collect(),
+        );
+        let moves: Vec<Move> = report
+            .moves
+            .iter()
+            .map(|m| Move {
+                unit: state.units[m.unit].id.clone(),
+                from: id(m.from),
+                to: id(m.to),
+            })
+            .collect();
+        let p = ProposalOdds {
+            seq,
+            moves,
+            worst: report.key.worst_odds_per_tier(),
+            min_odds: Some(report.key.min_odds()),
+        };
+        walker.set_proposal(Some(p.clone()));
+        Some(p)
+    }
 }
 
 #[derive(Clone, Copy)]
