@@ -1,6 +1,7 @@
 //! `oddsboard dash`: the commander's dashboard. From an incident file it
 //! creates the log (`--log`, default beside the file with the extension
-//! `.log`) and starts; from a log it resumes. Every action is written to the
+//! `.log`) and starts; from a log it resumes. Started again on the same file,
+//! it resumes the default log when that log holds the same incident. Every action is written to the
 //! log before the screen shows it as done.
 
 use super::CliResult;
@@ -57,22 +58,41 @@ pub fn default_log_path(file: &Path) -> PathBuf {
 
 pub fn run(args: Args) -> CliResult {
     let by = actor(args.by);
+    let mut resumed_note = None;
     let (writer, log_path) = if looks_like_log(&args.file) {
         let w = LogWriter::open(&args.file)?;
         (w, args.file.clone())
     } else {
         let incident = load_incident_file(&args.file)?;
+        let explicit = args.log.is_some();
         let path = args.log.unwrap_or_else(|| default_log_path(&args.file));
         if path.exists() {
-            anyhow::bail!(
-                "{}: a log already exists there; resume it with `oddsboard dash {}` or choose another with --log",
-                path.display(),
-                path.display()
-            );
+            // Re-running the same command after a crash or a closed terminal
+            // must pick the incident up where it was, never start it afresh
+            // beside a live log. An explicit --log is never reused silently.
+            let logged = read_log(&path)
+                .ok()
+                .and_then(|c| crate::log::fold(&c.records[..1.min(c.records.len())]).ok());
+            match logged {
+                Some(first) if !explicit && first.name == incident.name => {
+                    resumed_note = Some(format!(
+                        "Resumed {} (same incident); --log NEW.log starts afresh",
+                        path.display()
+                    ));
+                    (LogWriter::open(&path)?, path)
+                }
+                _ => anyhow::bail!(
+                    "{}: a log already exists there (of another incident, or named with --log); \
+                     resume it with `oddsboard dash {}` or choose a new one with --log",
+                    path.display(),
+                    path.display()
+                ),
+            }
+        } else {
+            let w = LogWriter::create(&path, &incident, &by)
+                .with_context(|| format!("creating the log {}", path.display()))?;
+            (w, path)
         }
-        let w = LogWriter::create(&path, &incident, &by)
-            .with_context(|| format!("creating the log {}", path.display()))?;
-        (w, path)
     };
     let contents = read_log(&log_path)?;
     if let Some(t) = &contents.torn_tail {
@@ -80,6 +100,9 @@ pub fn run(args: Args) -> CliResult {
     }
     let mut state = state_from_records(Mode::Command, &contents.records, Theme::from_env())?;
     state.operator = by;
+    if let Some(text) = resumed_note {
+        state.flash = Some(crate::tui::app::Flash { error: false, text });
+    }
     let planner = SolverPlanner::with_budget(Duration::from_millis(args.budget_ms));
     launch(
         state,
