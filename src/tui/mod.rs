@@ -12,16 +12,23 @@
 //! One file per panel: `panel_tasks`, `panel_units`, `panel_picture`,
 //! `panel_notes`, `panel_log`, `panel_status`, `panel_help`.
 
+pub mod actions;
 pub mod app;
 pub mod board;
+pub mod form;
 pub mod format;
+pub mod launch;
 pub mod panel_help;
 pub mod panel_log;
 pub mod panel_notes;
 pub mod panel_picture;
+pub mod panel_replay;
 pub mod panel_status;
 pub mod panel_tasks;
 pub mod panel_units;
+pub mod planner;
+pub mod runtime;
+pub mod terminal;
 pub mod theme;
 pub mod view;
 

@@ -14,7 +14,7 @@ use super::format::{fit, odds_from_ln};
 pub fn key_hint(mode: Mode) -> &'static str {
     match mode {
         Mode::Command => {
-            "↑↓ task · y accept · x reject · l lost · a add · r re-rate · n need · m move · p pin · u undo · ? help · q quit"
+            "↑↓ task · y accept · x reject · l lost · a add · r rate · n need · m move · p pin · u undo · ? all keys · q quit"
         }
         Mode::Watch => "↑↓ task · PgUp/PgDn units · ? help · q quit · read-only",
         Mode::Replay => "←→ step · Home/End · g go to · space play · +/- speed · ? help · q quit",
@@ -33,7 +33,7 @@ pub fn plan_words(state: &AppState) -> String {
         PlanStatus::Starting => "re-plan: starting…".into(),
         PlanStatus::Improving { elapsed, .. } => match worst(state) {
             Some(w) => format!(
-                "re-plan: improving… best so far worst {w} · {:.1} s",
+                "re-plan: improving… best so far: worst {w} · {:.1} s",
                 elapsed.as_secs_f64()
             ),
             None => format!(
@@ -48,11 +48,12 @@ pub fn plan_words(state: &AppState) -> String {
                 ""
             };
             match worst(state) {
-                Some(w) => format!("re-plan: done{proof} · worst {w}"),
+                Some(w) => format!("re-plan: done{proof} · proposal's worst {w}"),
                 None => format!("re-plan: done{proof} · keep the ground as it is"),
             }
         }
         PlanStatus::Failed(e) => format!("re-plan failed: {e}"),
+        PlanStatus::Rejected => "re-plan: proposal rejected · waits for a change".into(),
     }
 }
 
@@ -90,7 +91,9 @@ pub fn render_header(state: &AppState, frame: &mut Frame, area: Rect) {
 pub fn render_status(state: &AppState, frame: &mut Frame, area: Rect) {
     let th = &state.theme;
     let plan = plan_words(state);
-    let plan_w = (plan.chars().count() as u16 + 1).min(area.width / 2);
+    // The keys keep at least 96 columns; the re-plan words take the rest.
+    let plan_w =
+        (plan.chars().count() as u16 + 1).min(area.width.saturating_sub(96).max(area.width / 3));
     let [left, right] =
         Layout::horizontal([Constraint::Fill(1), Constraint::Length(plan_w)]).areas(area);
     let left_line = match &state.flash {

@@ -9,7 +9,8 @@ use ratatui::widgets::{Paragraph, Wrap};
 
 use super::app::{AppState, Overlay};
 use super::{
-    panel_help, panel_log, panel_notes, panel_picture, panel_status, panel_tasks, panel_units,
+    panel_help, panel_log, panel_notes, panel_picture, panel_replay, panel_status, panel_tasks,
+    panel_units,
 };
 
 /// Smallest terminal the board is drawn in.
@@ -58,10 +59,16 @@ pub fn render(state: &AppState, frame: &mut Frame) {
         Layout::vertical([Constraint::Length(picture_h), Constraint::Fill(1), log]).areas(right);
     panel_picture::render(state, frame, picture);
     panel_notes::render(state, frame, notes);
-    panel_log::render(state, frame, log);
+    if state.replay.is_some() {
+        panel_replay::render(state, frame, log);
+    } else {
+        panel_log::render(state, frame, log);
+    }
 
-    if state.overlay == Overlay::Help {
-        panel_help::render(state, frame, area);
+    match &state.overlay {
+        Overlay::Help => panel_help::render(state, frame, area),
+        Overlay::Form(form) => super::form::render(form, &state.theme, frame, area),
+        Overlay::None => {}
     }
 }
 
