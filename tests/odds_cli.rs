@@ -150,3 +150,38 @@ fn bad_input_exits_1_and_bad_usage_exits_2() {
         .assert()
         .code(2);
 }
+
+/// Every sample incident gives a table and a JSON document whose tasks and
+/// placement cover the file (the samples are invented scenarios).
+#[test]
+fn odds_on_every_sample_incident() {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-incidents");
+    let Ok(entries) = std::fs::read_dir(&dir) else {
+        return;
+    };
+    for path in entries.filter_map(|e| e.ok().map(|e| e.path())) {
+        if path.extension().is_none_or(|e| e != "yaml") {
+            continue;
+        }
+        oddsboard()
+            .arg("odds")
+            .arg(&path)
+            .assert()
+            .success()
+            .stdout(predicate::str::contains("Caution:"));
+        let out = oddsboard()
+            .args(["odds", "--json"])
+            .arg(&path)
+            .output()
+            .expect("runs");
+        assert!(out.status.success(), "{}", path.display());
+        let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
+        let inc = oddsboard::model::load_incident_file(&path).expect("sample loads");
+        assert_eq!(
+            v["placement"].as_object().map(|m| m.len()),
+            Some(inc.units.len())
+        );
+        let open = inc.tasks.iter().filter(|t| t.is_open()).count();
+        assert_eq!(v["tasks"].as_array().map(Vec::len), Some(open));
+    }
+}

@@ -196,3 +196,21 @@ fn progress_reports_improving_keys() {
     }
     assert!(!keys.last().expect("one").better_than(&r.key));
 }
+
+/// A case where a swap and its reverse once both looked like gains through
+/// rounding in the running sums (the search cycled and never reached the
+/// exact phase): it must now end with a proof.
+#[test]
+fn rounding_cannot_make_the_search_cycle() {
+    let inc = generate(&GenerateSpec::new(8, 3, 2).seed(11)).expect("loads");
+    let r = run(
+        &inc,
+        &SolveOptions {
+            budget: Duration::from_secs(60),
+            from_scratch: true,
+            ..SolveOptions::default()
+        },
+    );
+    assert!(r.proven_optimal);
+    assert_eq!(r.stop, StopReason::Proved);
+}

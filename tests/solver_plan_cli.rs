@@ -163,3 +163,43 @@ fn infeasible_reserve_is_an_input_error() {
         .code(1)
         .stderr(predicate::str::contains("reserve_min"));
 }
+
+#[test]
+fn plans_the_state_at_the_end_of_a_log() {
+    let f = file(INCIDENT);
+    let dir = tempfile::tempdir().expect("temp dir");
+    let log = dir.path().join("drill.log");
+    Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args([
+            "start",
+            f.path().to_str().expect("path"),
+            "--log",
+            log.to_str().expect("path"),
+        ])
+        .assert()
+        .success();
+    Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args([
+            "record",
+            log.to_str().expect("path"),
+            "{kind: unit_lost, unit: E1, reason: pump failure}",
+        ])
+        .assert()
+        .success();
+    let out = Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args(["plan", log.to_str().expect("path"), "--json"])
+        .output()
+        .expect("runs");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
+    let placement = v["placement"].as_object().expect("object");
+    assert_eq!(placement.len(), 3, "the lost unit is gone");
+    assert!(!placement.contains_key("E1"));
+}

@@ -112,3 +112,110 @@ fn too_small_terminal_gets_a_message() {
     let screen = draw(&s, 80, 24);
     assert_snapshot!(screen);
 }
+
+#[test]
+fn unit_just_lost() {
+    // Times of the records are masked: the log stamps the test run.
+    let mut b = tui_common::Bench::new(drill());
+    b.key(ratatui::crossterm::event::KeyCode::Char('l'));
+    b.type_enter("E1");
+    b.type_enter("pump failure");
+    let text = format!("{}", draw(&b.state, 140, 45));
+    assert_snapshot!(regex_free_mask_times(&text));
+}
+
+#[test]
+fn form_with_an_inline_error() {
+    let mut b = tui_common::Bench::new(drill());
+    b.key(ratatui::crossterm::event::KeyCode::Char('n'));
+    b.key(ratatui::crossterm::event::KeyCode::Enter);
+    b.key(ratatui::crossterm::event::KeyCode::Enter);
+    b.type_enter("lots");
+    b.key(ratatui::crossterm::event::KeyCode::Enter);
+    let text = format!("{}", draw(&b.state, 120, 40));
+    assert_snapshot!(regex_free_mask_times(&text));
+}
+
+#[test]
+fn replay_mid_way() {
+    use ratatui::crossterm::event::KeyCode;
+    let mut b = tui_common::Bench::new(drill());
+    // A short incident: a proposal, a loss, the proposal accepted, a close.
+    let inc = &b.state.incident;
+    let mut p = inc.placement.clone();
+    p.set(inc.unit_idx("E4").unwrap(), inc.task_idx("T3"));
+    let generation = b.state.generation;
+    b.send(AppEvent::SolverFinished {
+        generation,
+        result: Ok(PlanResult {
+            placement: p,
+            proven_optimal: true,
+            elapsed: Duration::from_millis(2),
+        }),
+    });
+    b.key(KeyCode::Char('l'));
+    b.type_enter("W2");
+    b.type_enter("rollover on approach");
+    b.key(KeyCode::Char('m'));
+    b.type_enter("E4");
+    b.type_enter("T3");
+    b.key(KeyCode::Char('c'));
+    b.type_enter("T4");
+    b.type_enter("cancel");
+    let records = b.records();
+    let kinds: Vec<_> = records.iter().map(|r| r.event.kind()).collect();
+    assert_eq!(records.len(), 5, "{kinds:?} {:?}", b.state.flash);
+    let mut s = oddsboard::tui::app::replay_state(records, oddsboard::tui::Theme::monochrome())
+        .expect("replay starts");
+    // Step forward four records: snapshot, proposal, loss, move.
+    for _ in 0..3 {
+        update(&mut s, AppEvent::Key(KeyCode::Right.into()));
+    }
+    assert_eq!(s.replay.as_ref().map(|c| c.at), Some(3));
+    // The replayed state equals the fold of the first four records.
+    let folded = oddsboard::log::fold(&b.records()[..4]).unwrap();
+    assert_eq!(s.incident, folded);
+    let screen = draw(&s, 140, 45);
+    // The timestamps are the test run's: mask them for the snapshot.
+    let text = format!("{screen}");
+    let masked = regex_free_mask_times(&text);
+    assert_snapshot!(masked);
+}
+
+/// Replaces every `HH:MM:SS` and `YYYY-MM-DD` with placeholders.
+fn regex_free_mask_times(s: &str) -> String {
+    let chars: Vec<char> = s.chars().collect();
+    let mut out = String::new();
+    let mut i = 0;
+    let is_d = |c: char| c.is_ascii_digit();
+    while i < chars.len() {
+        if i + 8 <= chars.len()
+            && is_d(chars[i])
+            && is_d(chars[i + 1])
+            && chars[i + 2] == ':'
+            && is_d(chars[i + 3])
+            && is_d(chars[i + 4])
+            && chars[i + 5] == ':'
+            && is_d(chars[i + 6])
+            && is_d(chars[i + 7])
+        {
+            out.push_str("hh:mm:ss");
+            i += 8;
+        } else if i + 10 <= chars.len()
+            && (0..4).all(|k| is_d(chars[i + k]))
+            && chars[i + 4] == '-'
+            && is_d(chars[i + 5])
+            && is_d(chars[i + 6])
+            && chars[i + 7] == '-'
+            && is_d(chars[i + 8])
+            && is_d(chars[i + 9])
+        {
+            out.push_str("yyyy-mm-dd");
+            i += 10;
+        } else {
+            out.push(chars[i]);
+            i += 1;
+        }
+    }
+    out
+}

@@ -30,7 +30,7 @@ pub fn looks_like_log(path: &Path) -> bool {
 pub fn read_log_reporting(path: &Path) -> anyhow::Result<(Incident, LogContents)> {
     let (state, contents) = load_log(path)?;
     if let Some(t) = &contents.torn_tail {
-        eprintln!("warning: {}:{t}", path.display());
+        eprintln!("warning: {}:{}: {t}", path.display(), t.line);
     }
     Ok((state, contents))
 }

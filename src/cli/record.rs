@@ -18,6 +18,23 @@ pub struct Args {
     /// Who records it (default: $USER, else "operator").
     #[arg(long)]
     pub by: Option<String>,
+    /// Print one JSON document: for each event, its stdin line, and the
+    /// record written (`seq`, `at`, `kind`) or the reason it was refused.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// What became of one event, for `--json`.
+#[derive(serde::Serialize)]
+struct Outcome {
+    /// stdin line (1 for an event given on the command line).
+    line: usize,
+    recorded: bool,
+    seq: Option<u64>,
+    at: Option<String>,
+    kind: Option<&'static str>,
+    event: Option<String>,
+    error: Option<String>,
 }
 
 /// Parses one event from YAML or JSON text.
@@ -41,9 +58,14 @@ pub fn run(args: Args) -> CliResult {
         let event = parse_event(&args.event).map_err(|e| anyhow::anyhow!("{log}: event: {e}"))?;
         let record = writer.append(&by, event)?;
         warn_repair(&writer, &log);
-        println!("recorded seq {}: {}", record.seq, record.event.describe());
+        if args.json {
+            println!("{}", serde_json::to_string(&[recorded(1, &record)])?);
+        } else {
+            println!("recorded seq {}: {}", record.seq, record.event.describe());
+        }
         return Ok(());
     }
+    let mut outcomes = Vec::new();
     let stdin = std::io::stdin();
     let (mut ok, mut refused) = (0usize, 0usize);
     for (i, line) in stdin.lock().lines().enumerate() {
@@ -59,19 +81,35 @@ pub fn run(args: Args) -> CliResult {
         match outcome {
             Ok(r) => {
                 ok += 1;
-                println!(
-                    "stdin:{line_no}: recorded seq {}: {}",
-                    r.seq,
-                    r.event.describe()
-                );
+                if args.json {
+                    outcomes.push(recorded(line_no, &r));
+                } else {
+                    println!(
+                        "stdin:{line_no}: recorded seq {}: {}",
+                        r.seq,
+                        r.event.describe()
+                    );
+                }
             }
             Err(e) => {
                 refused += 1;
                 eprintln!("stdin:{line_no}: refused: {e}");
+                outcomes.push(Outcome {
+                    line: line_no,
+                    recorded: false,
+                    seq: None,
+                    at: None,
+                    kind: None,
+                    event: None,
+                    error: Some(e),
+                });
             }
         }
     }
     warn_repair(&writer, &log);
+    if args.json {
+        println!("{}", serde_json::to_string(&outcomes)?);
+    }
     if refused > 0 {
         anyhow::bail!(
             "{log}: {refused} of {} events refused (the others were recorded)",
@@ -81,8 +119,23 @@ pub fn run(args: Args) -> CliResult {
     Ok(())
 }
 
+fn recorded(line: usize, r: &crate::log::Record) -> Outcome {
+    Outcome {
+        line,
+        recorded: true,
+        seq: Some(r.seq),
+        at: Some(r.at.to_rfc3339_opts(chrono::SecondsFormat::Millis, true)),
+        kind: Some(r.event.kind()),
+        event: Some(r.event.describe()),
+        error: None,
+    }
+}
+
 fn warn_repair(writer: &LogWriter, log: &str) {
     if let Some(t) = writer.repaired_tail() {
-        eprintln!("warning: {log}:{t}; it was cut off before appending");
+        eprintln!(
+            "warning: {log}:{}: {t}; it was cut off before appending",
+            t.line
+        );
     }
 }

@@ -51,7 +51,12 @@ pub fn format_odds(odds: f64, ln_odds: Option<f64>, ln_fail: Option<f64>) -> Str
     if fail < 0.001 {
         return format!("99.9%+ (fail {})", sci(fail, ln_fail));
     }
-    format!("{} (ln {})", sci(odds, ln), signed(format!("{ln:.1}")))
+    if odds > 0.0 && odds.is_normal() {
+        format!("{} (ln {})", sci(odds, ln), signed(format!("{ln:.1}")))
+    } else {
+        // Below the smallest double the ln is the only figure left.
+        sci(odds, ln)
+    }
 }
 
 /// Scientific notation; below the smallest double, `e^ln`.
@@ -366,10 +371,7 @@ mod tests {
             format_odds(1.0, Some(-1e-9), Some(1e-9f64.ln())),
             "99.9%+ (fail 1.0e-9)"
         );
-        assert_eq!(
-            format_odds(0.0, Some(-804.6), Some(0.0)),
-            "e^\u{2212}804.6 (ln \u{2212}804.6)"
-        );
+        assert_eq!(format_odds(0.0, Some(-804.6), Some(0.0)), "e^\u{2212}804.6");
         assert_eq!(
             format_odds(2e-7, Some(2e-7f64.ln()), Some(-2e-7)),
             "2.0e-7 (ln \u{2212}15.4)"

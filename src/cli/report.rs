@@ -2,19 +2,26 @@
 
 use super::CliResult;
 use super::input::read_log_reporting;
-use crate::report::after_action_report;
+use crate::report::{after_action, render_markdown};
 use std::path::PathBuf;
 
 #[derive(Debug, clap::Args)]
 pub struct Args {
     /// The log to report on.
     pub log: PathBuf,
+    /// The report's content as one JSON document instead of Markdown.
+    #[arg(long)]
+    pub json: bool,
 }
 
 pub fn run(args: Args) -> CliResult {
     let (_, contents) = read_log_reporting(&args.log)?;
     let name = args.log.display().to_string();
-    let md = after_action_report(&contents.records, &name).map_err(|e| e.in_file(&name))?;
-    print!("{md}");
+    let data = after_action(&contents.records, &name).map_err(|e| e.in_file(&name))?;
+    if args.json {
+        println!("{}", serde_json::to_string_pretty(&data)?);
+    } else {
+        print!("{}", render_markdown(&data));
+    }
     Ok(())
 }

@@ -16,12 +16,26 @@ pub struct Args {
     /// Who opens the log (default: $USER, else "operator").
     #[arg(long)]
     pub by: Option<String>,
+    /// Print what was created as one JSON document.
+    #[arg(long)]
+    pub json: bool,
 }
 
 pub fn run(args: Args) -> CliResult {
     let incident = load_state(&args.file)?;
     let writer = LogWriter::create(&args.log, &incident, &actor(args.by))?;
     let s = writer.state();
+    if args.json {
+        let v = serde_json::json!({
+            "log": args.log.display().to_string(),
+            "seq": writer.last_seq(),
+            "incident": s.name,
+            "units": s.units.len(),
+            "tasks": s.tasks.len(),
+        });
+        println!("{v}");
+        return Ok(());
+    }
     println!(
         "started {}: seq 1, incident snapshot of {} ({} units, {} tasks)",
         args.log.display(),

@@ -4,13 +4,16 @@
 use super::CliResult;
 use super::input::read_log_reporting;
 use crate::log::Move;
-use crate::model::{Incident, Tier};
-use crate::odds::TaskOdds;
+use crate::model::{Incident, Placement, Tier};
+use crate::odds::view::{TaskView, task_view};
 use crate::report::fmt_odds;
 use crate::report::timeline::{ProposalOdds, Row, TierWorst, TimelineWalker};
-use serde_json::{Value, json};
+use crate::solver::{SolveOptions, solve};
+use serde::Serialize;
 use std::io::Write;
 use std::path::PathBuf;
+use std::sync::atomic::AtomicBool;
+use std::time::Duration;
 
 #[derive(Debug, clap::Args)]
 pub struct Args {
@@ -23,6 +26,16 @@ pub struct Args {
     /// `proposal`, …).
     #[arg(long)]
     pub json: bool,
+    /// Instead of the proposals in the log, compute the stable re-plan after
+    /// each record, each warm-started from the one before.
+    #[arg(long)]
+    pub recompute: bool,
+    /// With --recompute: solver budget per record, in milliseconds.
+    #[arg(long, default_value_t = 5)]
+    pub budget_ms: u64,
+    /// With --recompute: seed of the solver.
+    #[arg(long, default_value_t = 0)]
+    pub seed: u64,
 }
 
 pub fn run(args: Args) -> CliResult {
@@ -42,15 +55,93 @@ pub fn run(args: Args) -> CliResult {
     } else {
         Mode::Table
     };
+    let mut replanner = args.recompute.then(|| Replanner {
+        options: SolveOptions {
+            budget: Duration::from_millis(args.budget_ms),
+            seed: args.seed,
+            ..SolveOptions::default()
+        },
+        previous: None,
+    });
     mode.header(&mut out)?;
+    let mut row = row;
+    if let Some(rp) = &mut replanner {
+        row.proposal = rp.replan(&mut walker, first.seq);
+    }
     mode.row(&mut out, &walker, &row, true)?;
     for r in rest {
-        let row = walker.step(r).map_err(|e| e.in_file(&name))?;
+        let mut row = walker.step(r).map_err(|e| e.in_file(&name))?;
+        if let Some(rp) = &mut replanner {
+            row.proposal = rp.replan(&mut walker, r.seq);
+        }
         mode.row(&mut out, &walker, &row, false)?;
     }
     mode.footer(&mut out)?;
     out.flush()?;
     Ok(())
+}
+
+/// The stable re-plan after each record for `--recompute`.
+struct Replanner {
+    options: SolveOptions,
+    /// The previous re-plan by unit id (ids survive units lost or added).
+    previous: Option<Vec<(String, Option<String>)>>,
+}
+
+impl Replanner {
+    fn warm_start(&self, state: &Incident) -> Option<Placement> {
+        let prev = self.previous.as_ref()?;
+        let mut p = state.placement.clone();
+        for (uid, tid) in prev {
+            if let Some(u) = state.unit_idx(uid) {
+                let t = tid.as_deref().and_then(|t| state.task_idx(t));
+                if t.is_none_or(|t| state.may_place(u, t)) {
+                    p.set(u, t);
+                }
+            }
+        }
+        Some(p)
+    }
+
+    fn replan(&mut self, walker: &mut TimelineWalker, seq: u64) -> Option<ProposalOdds> {
+        let state = walker.state();
+        let mut options = self.options.clone();
+        options.warm_start = self.warm_start(state);
+        let cancel = AtomicBool::new(false);
+        let report = solve(state, &options, &cancel, &mut |_| {}).ok();
+        let Some(report) = report else {
+            self.previous = None;
+            walker.set_proposal(None);
+            return None;
+        };
+        let id = |t: Option<usize>| t.map(|t| state.tasks[t].id.clone());
+        self.previous = Some(
+            report
+                .placement
+                .0
+                .iter()
+                .enumerate()
+                .map(|(u, t)| (state.units[u].id.clone(), id(*t)))
+                .collect(),
+        );
+        let moves: Vec<Move> = report
+            .moves
+            .iter()
+            .map(|m| Move {
+                unit: state.units[m.unit].id.clone(),
+                from: id(m.from),
+                to: id(m.to),
+            })
+            .collect();
+        let p = ProposalOdds {
+            seq,
+            moves,
+            worst: report.key.worst_odds_per_tier(),
+            min_odds: Some(report.key.min_odds()),
+        };
+        walker.set_proposal(Some(p.clone()));
+        Some(p)
+    }
 }
 
 #[derive(Clone, Copy)]
@@ -90,52 +181,64 @@ fn csv_odds(p: Option<f64>) -> String {
     p.map_or(String::new(), |p| format!("{p:.6e}"))
 }
 
-fn num(v: f64) -> Value {
-    if v.is_finite() { json!(v) } else { Value::Null }
+/// Worst ground odds of each tier (`null` where a tier has no open task).
+#[derive(Serialize)]
+struct WorstJson {
+    life: Option<f64>,
+    stabilization: Option<f64>,
+    property: Option<f64>,
 }
 
-/// One task as in the `tasks` of `odds --json` (SPEC §5).
-pub fn task_json(state: &Incident, o: &TaskOdds) -> Value {
-    let task = &state.tasks[o.task_idx];
-    json!({
-        "id": task.id,
-        "tier": task.tier.as_str(),
-        "odds": num(o.odds()),
-        "ln_odds": num(o.ln_odds),
-        "regime": o.regime().map(|r| r.as_str()),
-        "binding_trait": o.binding_trait().map(|t| state.traits[t.trait_idx].id.as_str()),
-        "z": num(o.z()),
-        "units": o.units.iter().map(|&u| state.units[u].id.as_str()).collect::<Vec<_>>(),
-        "traits": o.traits.iter().map(|t| json!({
-            "trait": state.traits[t.trait_idx].id,
-            "mean": num(t.mean),
-            "sd": num(t.sd),
-            "need": num(t.need),
-            "need_sd": num(t.need_sd),
-            "z": num(t.z),
-            "odds": num(t.odds()),
-        })).collect::<Vec<_>>(),
-    })
+fn finite(p: Option<f64>) -> Option<f64> {
+    p.filter(|v| v.is_finite())
 }
 
-fn worst_json(w: &TierWorst) -> Value {
-    let mut m = serde_json::Map::new();
-    for tier in Tier::ALL {
-        m.insert(
-            tier.as_str().into(),
-            w[tier.index()].map_or(Value::Null, num),
-        );
+impl From<&TierWorst> for WorstJson {
+    fn from(w: &TierWorst) -> Self {
+        WorstJson {
+            life: finite(w[Tier::Life.index()]),
+            stabilization: finite(w[Tier::Stabilization.index()]),
+            property: finite(w[Tier::Property.index()]),
+        }
     }
-    Value::Object(m)
 }
 
-fn proposal_json(p: &ProposalOdds) -> Value {
-    json!({
-        "seq": p.seq,
-        "moves": p.moves,
-        "worst": worst_json(&p.worst),
-        "min_odds": p.min_odds.map_or(Value::Null, num),
-    })
+#[derive(Serialize)]
+struct ProposalJson<'a> {
+    /// The record that proposed it.
+    seq: u64,
+    moves: &'a [Move],
+    /// Worst odds per tier if the moves were made.
+    worst: WorstJson,
+    min_odds: Option<f64>,
+}
+
+/// One element of `timeline --json`.
+#[derive(Serialize)]
+struct RowJson<'a> {
+    seq: u64,
+    at: String,
+    by: &'a str,
+    kind: &'a str,
+    /// The event in words.
+    event: &'a str,
+    /// Worst ground odds per tier after the record.
+    worst: WorstJson,
+    min_odds: Option<f64>,
+    /// Open tasks on the ground after the record, as `odds --json` `tasks`.
+    ground: Vec<TaskView>,
+    /// The proposal in force (the last `plan_proposed` not yet accepted or
+    /// rejected), or null.
+    proposal: Option<ProposalJson<'a>>,
+}
+
+fn proposal_json(p: &ProposalOdds) -> ProposalJson<'_> {
+    ProposalJson {
+        seq: p.seq,
+        moves: &p.moves,
+        worst: WorstJson::from(&p.worst),
+        min_odds: finite(p.min_odds),
+    }
 }
 
 impl Mode {
@@ -222,23 +325,23 @@ impl Mode {
             }
             Mode::Json => {
                 let state = walker.state();
-                let ground: Vec<Value> = walker
+                let ground: Vec<TaskView> = walker
                     .ground()
                     .iter()
                     .filter(|o| state.tasks[o.task_idx].is_open())
-                    .map(|o| task_json(state, o))
+                    .map(|o| task_view(state, o))
                     .collect();
-                let v = json!({
-                    "seq": row.seq,
-                    "at": row.at.to_rfc3339_opts(chrono::SecondsFormat::Millis, true),
-                    "by": row.by,
-                    "kind": row.kind,
-                    "event": row.words,
-                    "worst": worst_json(&row.worst),
-                    "min_odds": row.min_odds.map_or(Value::Null, num),
-                    "ground": ground,
-                    "proposal": row.proposal.as_ref().map_or(Value::Null, proposal_json),
-                });
+                let v = RowJson {
+                    seq: row.seq,
+                    at: row.at.to_rfc3339_opts(chrono::SecondsFormat::Millis, true),
+                    by: &row.by,
+                    kind: row.kind,
+                    event: &row.words,
+                    worst: WorstJson::from(&row.worst),
+                    min_odds: finite(row.min_odds),
+                    ground,
+                    proposal: row.proposal.as_ref().map(proposal_json),
+                };
                 if !first {
                     write!(out, ",")?;
                 }

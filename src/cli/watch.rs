@@ -1,14 +1,32 @@
-//! `oddsboard watch` (not built yet).
+//! `oddsboard watch`: the duty officer's read-only dashboard, following the
+//! records others append to a live log (polled every 250 ms).
 
 use super::CliResult;
+use super::dash::state_from_records;
+use crate::log::read_log;
+use crate::tui::app::Mode;
+use crate::tui::launch::{Launch, run as launch};
+use crate::tui::theme::Theme;
 use std::path::PathBuf;
 
 #[derive(Debug, clap::Args)]
 pub struct Args {
-    /// Incident file or log.
-    pub file: PathBuf,
+    /// The log to follow.
+    pub log: PathBuf,
 }
 
-pub fn run(_args: Args) -> CliResult {
-    anyhow::bail!("`watch` is not built yet")
+pub fn run(args: Args) -> CliResult {
+    let contents = read_log(&args.log)?;
+    if let Some(t) = &contents.torn_tail {
+        eprintln!("warning: {}:{t}", args.log.display());
+    }
+    let state = state_from_records(Mode::Watch, &contents.records, Theme::from_env())?;
+    launch(
+        state,
+        Launch {
+            planner: None,
+            log: None,
+            follow: Some((args.log, contents.end_offset)),
+        },
+    )
 }

@@ -433,3 +433,114 @@ pub fn touched_units(state: &Incident, event: &Event) -> Vec<String> {
         _ => Vec::new(),
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::parse_incident_str;
+
+    const YAML: &str = "
+incident: { name: Invented apply test, reserve_min: 1 }
+traits: [ { id: water } ]
+unit_types: [ { id: engine, traits: { water: { mean: 1000, sd: 100 } } }, { id: boat } ]
+units: [ { id: E1, type: engine }, { id: E2, type: engine }, { id: E3, type: engine }, { id: B1, type: boat } ]
+tasks:
+  - { id: T1, needs: { water: 1500 }, max_units: 1, accepts: [engine] }
+  - { id: T2, needs: { water: 500 } }
+placement: { E1: T1 }
+";
+
+    fn state() -> Incident {
+        parse_incident_str(YAML, "t.yaml").expect("valid")
+    }
+    fn ev(s: &str) -> Event {
+        serde_yaml::from_str(s).expect("event")
+    }
+
+    #[test]
+    fn constraints_refuse_and_leave_the_state() {
+        let s0 = state();
+        for (e, says) in [
+            ("{kind: moved, unit: E2, to: T1}", "at most 1 units"),
+            (
+                "{kind: moved, unit: B1, to: T1}",
+                "does not accept unit type boat",
+            ),
+            ("{kind: moved, unit: E1, to: T1}", "already on T1"),
+            ("{kind: unpinned, unit: E1}", "not pinned"),
+            (
+                "{kind: plan_accepted, moves: [{unit: E1, from: T1, to: T2}, {unit: E1, from: T1, to: null}]}",
+                "moved twice",
+            ),
+        ] {
+            let mut s = s0.clone();
+            let err = apply(&mut s, &ev(e)).expect_err(e);
+            assert!(err.to_string().contains(says), "{e}: {err}");
+            assert_eq!(s, s0, "{e} changed the state");
+        }
+        // reserve_min 1: E2, E3, B1 in reserve; two may leave, not three.
+        let mut s = s0.clone();
+        apply(&mut s, &ev("{kind: moved, unit: E2, to: T2}")).expect("ok");
+        apply(&mut s, &ev("{kind: moved, unit: E3, to: T2}")).expect("ok");
+        let err = apply(&mut s, &ev("{kind: moved, unit: B1, to: T2}")).expect_err("reserve");
+        assert!(
+            err.to_string().contains("at least 1 units in reserve"),
+            "{err}"
+        );
+    }
+
+    #[test]
+    fn pins_bind_the_plan_not_the_ground() {
+        let mut s = state();
+        apply(&mut s, &ev("{kind: pinned, unit: E2, task: T2}")).expect("pin");
+        assert_eq!(s.placement.get(1), None, "a pin does not move the unit");
+        let err = apply(&mut s, &ev("{kind: moved, unit: E2, to: T1}")).expect_err("pinned");
+        assert!(err.to_string().contains("pinned to T2"), "{err}");
+        apply(
+            &mut s,
+            &ev("{kind: plan_accepted, moves: [{unit: E2, from: null, to: T2}]}"),
+        )
+        .expect("a plan may carry a pinned unit to its task");
+        // Out of service: leaves its task and its pin.
+        apply(
+            &mut s,
+            &ev("{kind: unit_status, unit: E2, status: out_of_service}"),
+        )
+        .expect("oos");
+        assert_eq!(s.placement.get(1), None);
+        assert!(s.pins.is_empty());
+    }
+
+    #[test]
+    fn ground_changes_only_through_its_events() {
+        let mut s = state();
+        let before = s.placement.clone();
+        for e in [
+            "{kind: plan_proposed, moves: [{unit: E2, from: null, to: T2}]}",
+            "{kind: plan_rejected}",
+            "{kind: pinned, unit: E3, task: T2}",
+            "{kind: need_changed, task: T2, trait: water, need: 900}",
+            "{kind: unit_rerated, unit: E1, trait: water, mean: 800}",
+            "{kind: note, text: x}",
+        ] {
+            apply(&mut s, &ev(e)).expect(e);
+            assert_eq!(s.placement, before, "{e} moved a unit");
+        }
+        apply(
+            &mut s,
+            &ev("{kind: task_closed, task: T1, outcome: failed}"),
+        )
+        .expect("close");
+        assert_eq!(
+            s.placement.get(0),
+            None,
+            "units of a closed task go to reserve"
+        );
+        let err = apply(
+            &mut s,
+            &ev("{kind: task_closed, task: T1, outcome: failed}"),
+        )
+        .expect_err("twice");
+        assert!(err.to_string().contains("already closed"));
+    }
+}

@@ -17,6 +17,7 @@
 pub mod apply;
 pub mod codec;
 pub mod event;
+pub mod generate;
 pub mod read;
 pub mod replay;
 pub mod snapshot;

@@ -24,7 +24,7 @@ impl std::fmt::Display for TornTail {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         write!(
             f,
-            "line {}: torn last record left out ({} bytes at offset {}: {})",
+            "torn last record (line {}) left out: {} bytes at offset {}: {}",
             self.line, self.bytes, self.offset, self.reason
         )
     }

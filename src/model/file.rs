@@ -100,11 +100,39 @@ pub struct UnitFile {
 }
 
 /// A need: a bare number (certain) or `{ need, sd }`.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 #[serde(untagged)]
 pub enum NeedFile {
     Certain(f64),
     Uncertain(UncertainNeedFile),
+}
+
+/// By hand rather than `untagged`, so that a bad `{ need, sd }` reports its
+/// own field (`unknown field `sdd``) instead of "did not match any variant".
+impl<'de> Deserialize<'de> for NeedFile {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct NeedVisitor;
+        impl<'de> serde::de::Visitor<'de> for NeedVisitor {
+            type Value = NeedFile;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("a number or a mapping `{ need, sd }`")
+            }
+            fn visit_f64<E: serde::de::Error>(self, v: f64) -> Result<NeedFile, E> {
+                Ok(NeedFile::Certain(v))
+            }
+            fn visit_i64<E: serde::de::Error>(self, v: i64) -> Result<NeedFile, E> {
+                Ok(NeedFile::Certain(v as f64))
+            }
+            fn visit_u64<E: serde::de::Error>(self, v: u64) -> Result<NeedFile, E> {
+                Ok(NeedFile::Certain(v as f64))
+            }
+            fn visit_map<A: serde::de::MapAccess<'de>>(self, map: A) -> Result<NeedFile, A::Error> {
+                UncertainNeedFile::deserialize(serde::de::value::MapAccessDeserializer::new(map))
+                    .map(NeedFile::Uncertain)
+            }
+        }
+        d.deserialize_any(NeedVisitor)
+    }
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]

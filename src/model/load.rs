@@ -1,7 +1,9 @@
 //! Reading and validating incident files: YAML text → [`IncidentFile`] →
 //! [`Incident`], with every problem reported as a located [`Diagnostic`].
 
-use super::file::{IncidentFile, NeedFile, RatingFile, TaskFile, UnitFile};
+use super::file::{
+    IncidentFile, IncidentHeader, NeedFile, RatingFile, TaskFile, TraitFile, UnitFile, UnitTypeFile,
+};
 use super::locate::Locator;
 use super::*;
 use std::fmt;
@@ -83,46 +85,483 @@ pub fn load_incident_file(path: &Path) -> Result<Incident, LoadError> {
 }
 
 /// Parses and validates incident YAML text; `file` names it in diagnostics.
+///
+/// Every problem found is reported, sorted by line: duplicate keys, then
+/// per section and per list element the serde errors (unknown field, wrong
+/// type), then the checks of meaning (references, ranges, constraints). An
+/// element that does not even read is left out of the later checks, so one
+/// mistake does not echo as many.
 pub fn parse_incident_str(text: &str, file: &str) -> Result<Incident, LoadError> {
     let locator = Locator::new(text);
-    let mut sink = Sink {
-        file,
-        locator: &locator,
-        out: Vec::new(),
-    };
-    sink.out.extend(locator.structural_problems(file));
-    if !sink.out.is_empty() {
-        return Err(LoadError::Invalid(sink.out));
+    if locator.refused() {
+        return Err(LoadError::Invalid(locator.structural_problems(file)));
     }
-    let parsed: IncidentFile = match serde_yaml::from_str(text) {
-        Ok(p) => p,
+    let mut sink = Sink::new(file, &locator);
+    let mut reported = locator.structural_problems(file);
+    let incident = match serde_yaml::from_str::<LenientValue>(text) {
+        Ok(root) => {
+            let mut unread = Unread::default();
+            let parsed = read_sections(&root.0, &mut sink, &mut unread);
+            reported.append(&mut sink.out);
+            let incident = parsed.map(|parsed| convert(&parsed, &mut sink));
+            // Problems under an element that did not read are echoes of it.
+            sink.out.retain(|d| !unread.covers(&d.path));
+            incident
+        }
         Err(e) => {
-            let (line, column) = e
-                .location()
-                .map(|l| (Some(l.line()), Some(l.column())))
-                .unwrap_or((None, None));
-            let msg = e.to_string();
-            let message =
-                if msg.contains("repetition limit exceeded") || msg.contains("recursion limit") {
-                    "too many aliases or too deep nesting (a YAML alias bomb?): refused".to_string()
-                } else {
-                    msg
-                };
-            return Err(LoadError::Invalid(vec![Diagnostic {
-                file: file.to_string(),
-                line,
-                column,
-                path: String::new(),
-                message,
-            }]));
+            reported.push(yaml_error(file, &e));
+            None
         }
     };
-    let incident = convert(&parsed, &mut sink);
-    if sink.out.is_empty() {
-        Ok(incident)
-    } else {
-        Err(LoadError::Invalid(sink.out))
+    sink.out.append(&mut reported);
+    // Whatever the index could not place belongs to the document as a whole.
+    for d in &mut sink.out {
+        if d.line.is_none() {
+            d.line = Some(1);
+            d.column = Some(1);
+        }
     }
+    match incident {
+        Some(incident) if sink.out.is_empty() => Ok(incident),
+        _ => Err(LoadError::Invalid(sink.finish())),
+    }
+}
+
+/// A serde_yaml error on the whole text (syntax, limits) as a diagnostic.
+fn yaml_error(file: &str, e: &serde_yaml::Error) -> Diagnostic {
+    let location = e.location();
+    let mut message = e.to_string();
+    let mut path = String::new();
+    if let Some(l) = &location {
+        // The location is printed in front; drop its repetition.
+        message = message.replacen(
+            &format!(" at line {} column {}", l.line(), l.column()),
+            "",
+            1,
+        );
+    }
+    if message.contains("repetition limit exceeded") {
+        message = "YAML aliases repeat too often for a file this size (an alias bomb?): \
+                   refused; write the values out or use fewer aliases"
+            .to_string();
+    } else if message.contains("recursion limit exceeded") {
+        message = "nesting too deep (recursion limit exceeded): refused (not an incident file?)"
+            .to_string();
+    } else if let Some(i) = message.find("YAML tags (") {
+        // serde_yaml puts the field path in front of a visitor's message.
+        path = message[..i].trim_end_matches(": ").to_string();
+        message = message[i..].to_string();
+    } else {
+        message = format!("YAML syntax: {message}");
+    }
+    Diagnostic {
+        file: file.to_string(),
+        line: location.as_ref().map(|l| l.line()),
+        column: location.as_ref().map(|l| l.column()),
+        path,
+        message,
+    }
+}
+
+/// A YAML value read keeping the last of duplicate keys (as serde does when
+/// it fills a map) instead of failing on the first: the [`Locator`] already
+/// reports every duplicate with its place, and reading on finds the other
+/// problems of the file.
+struct LenientValue(serde_yaml::Value);
+
+impl<'de> serde::Deserialize<'de> for LenientValue {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        use serde::de::{self, Visitor};
+        use serde_yaml::{Mapping, Number, Value};
+        struct V;
+        impl<'de> Visitor<'de> for V {
+            type Value = LenientValue;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str("any YAML value")
+            }
+            fn visit_bool<E: de::Error>(self, v: bool) -> Result<LenientValue, E> {
+                Ok(LenientValue(Value::Bool(v)))
+            }
+            fn visit_i64<E: de::Error>(self, v: i64) -> Result<LenientValue, E> {
+                Ok(LenientValue(Value::Number(Number::from(v))))
+            }
+            fn visit_u64<E: de::Error>(self, v: u64) -> Result<LenientValue, E> {
+                Ok(LenientValue(Value::Number(Number::from(v))))
+            }
+            fn visit_f64<E: de::Error>(self, v: f64) -> Result<LenientValue, E> {
+                Ok(LenientValue(Value::Number(Number::from(v))))
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<LenientValue, E> {
+                Ok(LenientValue(Value::String(v.to_string())))
+            }
+            fn visit_string<E: de::Error>(self, v: String) -> Result<LenientValue, E> {
+                Ok(LenientValue(Value::String(v)))
+            }
+            fn visit_unit<E: de::Error>(self) -> Result<LenientValue, E> {
+                Ok(LenientValue(Value::Null))
+            }
+            fn visit_none<E: de::Error>(self) -> Result<LenientValue, E> {
+                Ok(LenientValue(Value::Null))
+            }
+            fn visit_some<D2: serde::Deserializer<'de>>(
+                self,
+                d: D2,
+            ) -> Result<LenientValue, D2::Error> {
+                <LenientValue as serde::Deserialize>::deserialize(d)
+            }
+            fn visit_seq<A: de::SeqAccess<'de>>(self, mut a: A) -> Result<LenientValue, A::Error> {
+                let mut items = Vec::new();
+                while let Some(LenientValue(v)) = a.next_element()? {
+                    items.push(v);
+                }
+                Ok(LenientValue(Value::Sequence(items)))
+            }
+            fn visit_map<A: de::MapAccess<'de>>(self, mut a: A) -> Result<LenientValue, A::Error> {
+                let mut map = Mapping::new();
+                while let Some((LenientValue(k), LenientValue(v))) = a.next_entry()? {
+                    map.insert(k, v);
+                }
+                Ok(LenientValue(Value::Mapping(map)))
+            }
+            fn visit_enum<A: de::EnumAccess<'de>>(self, _: A) -> Result<LenientValue, A::Error> {
+                Err(de::Error::custom(
+                    "YAML tags (`!name`) are not used in incident files",
+                ))
+            }
+        }
+        d.deserialize_any(V)
+    }
+}
+
+/// The top-level fields of the file, in the order they are documented.
+const SECTIONS: [&str; 7] = [
+    "incident",
+    "traits",
+    "unit_types",
+    "units",
+    "tasks",
+    "placement",
+    "pins",
+];
+
+fn kind_of(v: &serde_yaml::Value) -> &'static str {
+    use serde_yaml::Value;
+    match v {
+        Value::Null => "nothing (null)",
+        Value::Bool(_) => "a boolean",
+        Value::Number(_) => "a number",
+        Value::String(_) => "text",
+        Value::Sequence(_) => "a list",
+        Value::Mapping(_) => "a mapping",
+        Value::Tagged(_) => "a tagged value",
+    }
+}
+
+/// The text of field `field` of a mapping, if it is text: the id of an
+/// element that does not read, so references to it still resolve.
+fn text_field(v: &serde_yaml::Value, field: &str) -> Option<String> {
+    v.get(field).and_then(|x| x.as_str()).map(str::to_string)
+}
+
+/// Paths of elements that did not read (replaced by placeholders).
+#[derive(Default)]
+struct Unread(Vec<String>);
+
+impl Unread {
+    fn covers(&self, path: &str) -> bool {
+        self.0.iter().any(|s| {
+            path.strip_prefix(s.as_str())
+                .is_some_and(|rest| rest.is_empty() || rest.starts_with(['.', '[']))
+        })
+    }
+}
+
+/// Reads the file section by section and element by element, so that one
+/// bad element does not hide the problems of the others. Elements that do
+/// not read are replaced by placeholders (keeping their id) whose further
+/// problems are not reported.
+fn read_sections(
+    root: &serde_yaml::Value,
+    sink: &mut Sink,
+    unread: &mut Unread,
+) -> Option<IncidentFile> {
+    use serde_yaml::Value;
+    let map = match root {
+        Value::Mapping(m) => m,
+        Value::Null => {
+            sink.error_at(
+                "",
+                (1, 1),
+                "the file is empty: an incident file needs at least `incident` and `traits`",
+            );
+            return None;
+        }
+        other => {
+            sink.error(
+                "",
+                format!(
+                    "expected a mapping with `incident`, `traits`, `unit_types`, `units`, `tasks`, got {}",
+                    kind_of(other)
+                ),
+            );
+            return None;
+        }
+    };
+    let mut sections: BTreeMap<&str, &Value> = BTreeMap::new();
+    for (k, v) in map {
+        match k.as_str().and_then(|k| SECTIONS.iter().find(|s| **s == k)) {
+            Some(name) => {
+                sections.insert(name, v);
+            }
+            None => {
+                let key = k.as_str().map_or_else(|| format!("{k:?}"), str::to_string);
+                sink.error_at_key(
+                    "",
+                    &key,
+                    format!(
+                        "unknown field `{key}` (expected one of {})",
+                        SECTIONS.map(|s| format!("`{s}`")).join(", ")
+                    ),
+                );
+            }
+        }
+    }
+
+    let incident = match sections.get("incident") {
+        None => {
+            sink.error(
+                "",
+                "missing field `incident` (it holds at least the `name`)",
+            );
+            None
+        }
+        Some(v) => piece::<IncidentHeader>(v, "incident", sink),
+    }
+    .unwrap_or_else(|| {
+        unread.0.push("incident".to_string());
+        IncidentHeader {
+            name: sections
+                .get("incident")
+                .and_then(|v| text_field(v, "name"))
+                .unwrap_or_else(|| "?".to_string()),
+            started: None,
+            reserve_min: None,
+            secure: None,
+        }
+    });
+    if !sections.contains_key("traits") {
+        sink.error(
+            "",
+            "missing field `traits` (at least one capability, e.g. `- { id: water, unit: L/min }`)",
+        );
+        // Said once: not again as "at least one trait is required".
+        unread.0.push("traits".to_string());
+    }
+    let traits = list(sections.get("traits"), "traits", sink, unread, |v| {
+        TraitFile {
+            id: text_field(v, "id").unwrap_or_default(),
+            label: None,
+            unit: None,
+        }
+    });
+    let unit_types = list(
+        sections.get("unit_types"),
+        "unit_types",
+        sink,
+        unread,
+        |v| UnitTypeFile {
+            id: text_field(v, "id").unwrap_or_default(),
+            label: None,
+            rho: None,
+            traits: BTreeMap::new(),
+            cost: None,
+        },
+    );
+    let units = list(sections.get("units"), "units", sink, unread, |v| UnitFile {
+        id: text_field(v, "id").unwrap_or_default(),
+        unit_type: text_field(v, "type").unwrap_or_default(),
+        traits: BTreeMap::new(),
+        status: None,
+    });
+    let tasks = list(sections.get("tasks"), "tasks", sink, unread, |v| TaskFile {
+        id: text_field(v, "id").unwrap_or_default(),
+        label: None,
+        tier: None,
+        needs: BTreeMap::new(),
+        accepts: None,
+        min_units: None,
+        max_units: None,
+        outcome: None,
+    });
+    let placement = id_map::<Option<String>>(sections.get("placement"), "placement", sink);
+    let pins = id_map::<String>(sections.get("pins"), "pins", sink);
+    Some(IncidentFile {
+        incident,
+        traits,
+        unit_types,
+        units,
+        tasks,
+        placement,
+        pins,
+    })
+}
+
+/// One list section, element by element.
+fn list<T: serde::de::DeserializeOwned>(
+    v: Option<&&serde_yaml::Value>,
+    path: &str,
+    sink: &mut Sink,
+    unread: &mut Unread,
+    placeholder: impl Fn(&serde_yaml::Value) -> T,
+) -> Vec<T> {
+    use serde_yaml::Value;
+    match v {
+        None | Some(Value::Null) => Vec::new(),
+        Some(Value::Sequence(items)) => items
+            .iter()
+            .enumerate()
+            .map(|(i, item)| {
+                let p = format!("{path}[{i}]");
+                piece::<T>(item, &p, sink).unwrap_or_else(|| {
+                    unread.0.push(p);
+                    placeholder(item)
+                })
+            })
+            .collect(),
+        Some(other) => {
+            sink.error(
+                path,
+                format!(
+                    "expected a list (`- …` lines or `[ … ]`), got {}",
+                    kind_of(other)
+                ),
+            );
+            Vec::new()
+        }
+    }
+}
+
+/// `placement` or `pins`: unit id → value, entry by entry.
+fn id_map<T: serde::de::DeserializeOwned>(
+    v: Option<&&serde_yaml::Value>,
+    path: &str,
+    sink: &mut Sink,
+) -> BTreeMap<String, T> {
+    use serde_yaml::Value;
+    let mut out = BTreeMap::new();
+    match v {
+        None | Some(Value::Null) => {}
+        Some(Value::Mapping(m)) => {
+            for (k, v) in m {
+                let Some(key) = k.as_str() else {
+                    let shown = match k {
+                        Value::Number(n) => n.to_string(),
+                        Value::Bool(b) => b.to_string(),
+                        _ => kind_of(k).to_string(),
+                    };
+                    sink.error_at_key(
+                        path,
+                        &shown,
+                        format!("a unit id must be text, got `{shown}` (put it in quotes)"),
+                    );
+                    continue;
+                };
+                if let Some(t) = piece::<T>(v, &format!("{path}.{key}"), sink) {
+                    out.insert(key.to_string(), t);
+                }
+            }
+        }
+        Some(other) => sink.error(
+            path,
+            format!(
+                "expected a mapping of unit id to task id, got {}",
+                kind_of(other)
+            ),
+        ),
+    }
+    out
+}
+
+/// Deserializes one piece of the file, reporting a failure with the full
+/// field path (`units[3].traits.water.mean`).
+fn piece<T: serde::de::DeserializeOwned>(
+    v: &serde_yaml::Value,
+    path: &str,
+    sink: &mut Sink,
+) -> Option<T> {
+    match serde_path_to_error::deserialize::<_, T>(v) {
+        Ok(t) => Some(t),
+        Err(e) => {
+            let mut full = path.to_string();
+            for segment in e.path() {
+                match segment {
+                    serde_path_to_error::Segment::Seq { index } => {
+                        full.push_str(&format!("[{index}]"))
+                    }
+                    serde_path_to_error::Segment::Map { key } => {
+                        if !full.is_empty() {
+                            full.push('.');
+                        }
+                        full.push_str(key);
+                    }
+                    serde_path_to_error::Segment::Enum { .. }
+                    | serde_path_to_error::Segment::Unknown => {}
+                }
+            }
+            report_serde_error(sink, &full, &e.into_inner().to_string());
+            None
+        }
+    }
+}
+
+/// Turns serde's wording into the file's: field paths, "a number" rather
+/// than "f64", unknown fields located at their key.
+fn report_serde_error(sink: &mut Sink, path: &str, message: &str) {
+    if let Some(rest) = message.strip_prefix("unknown field `")
+        && let Some((field, expected)) = rest.split_once('`')
+    {
+        // The path may or may not end in the unknown field itself.
+        let parent = match path.strip_suffix(field) {
+            Some(p) if p.is_empty() || p.ends_with('.') => p.trim_end_matches('.'),
+            _ => path,
+        };
+        let expected = expected.trim_start_matches(", ");
+        let hint = if expected.is_empty() {
+            String::new()
+        } else {
+            format!(" ({expected})")
+        };
+        sink.error_at_key(parent, field, format!("unknown field `{field}`{hint}"));
+        return;
+    }
+    if let Some(rest) = message.strip_prefix("missing field `")
+        && let Some((field, _)) = rest.split_once('`')
+    {
+        sink.error(path, format!("missing field `{field}` (required)"));
+        return;
+    }
+    if let Some(rest) = message.strip_prefix("invalid type: ")
+        && let Some((got, expected)) = rest.split_once(", expected ")
+    {
+        let expected = match expected {
+            "f64" => "a number",
+            "i64" | "u32" | "u64" => "a whole number",
+            "a sequence" => "a list",
+            "a map" => "a mapping",
+            e if e.starts_with("struct ") => "a mapping of fields (`key: value`)",
+            e => e,
+        };
+        let got = got.replace("unit value", "nothing (null)");
+        let hint =
+            if expected == "a string" && !got.starts_with("sequence") && !got.starts_with("map") {
+                " (put it in quotes)"
+            } else {
+                ""
+            };
+        sink.error(path, format!("expected {expected}, got {got}{hint}"));
+        return;
+    }
+    sink.error(path, message.to_string());
 }
 
 /// Collects diagnostics, locating each by its field path.
@@ -132,20 +571,56 @@ pub struct Sink<'a> {
     pub out: Vec<Diagnostic>,
 }
 
-impl Sink<'_> {
-    pub fn error(&mut self, path: impl Into<String>, message: impl Into<String>) {
-        let path = path.into();
-        let (line, column) = self
-            .locator
-            .locate(&path)
-            .map_or((None, None), |(l, c)| (Some(l), Some(c)));
+impl<'a> Sink<'a> {
+    pub fn new(file: &'a str, locator: &'a Locator) -> Self {
+        Sink {
+            file,
+            locator,
+            out: Vec::new(),
+        }
+    }
+
+    fn push(&mut self, path: String, at: Option<(usize, usize)>, message: String) {
+        let (line, column) = at.map_or((None, None), |(l, c)| (Some(l), Some(c)));
         self.out.push(Diagnostic {
             file: self.file.to_string(),
             line,
             column,
             path,
-            message: message.into(),
+            message,
         });
+    }
+
+    /// A problem with the value at `path`.
+    pub fn error(&mut self, path: impl Into<String>, message: impl Into<String>) {
+        let path = path.into();
+        let at = self.locator.locate(&path);
+        self.push(path, at, message.into());
+    }
+
+    /// A problem at a known place.
+    pub fn error_at(&mut self, path: &str, at: (usize, usize), message: impl Into<String>) {
+        self.push(path.to_string(), Some(at), message.into());
+    }
+
+    /// A problem with the key `key` of the mapping at `path` (unknown field,
+    /// unknown unit id), located at the key.
+    pub fn error_at_key(&mut self, path: &str, key: &str, message: impl Into<String>) {
+        let key_path = if path.is_empty() {
+            key.to_string()
+        } else {
+            format!("{path}.{key}")
+        };
+        let at = self.locator.locate_key(&key_path);
+        self.push(path.to_string(), at, message.into());
+    }
+
+    /// The diagnostics sorted by place (unlocated last), without repeats.
+    pub fn finish(mut self) -> Vec<Diagnostic> {
+        self.out
+            .sort_by_key(|d| (d.line.unwrap_or(usize::MAX), d.column.unwrap_or(usize::MAX)));
+        self.out.dedup();
+        self.out
     }
 }
 
@@ -161,13 +636,20 @@ fn check_number(sink: &mut Sink, path: &str, what: &str, v: f64) -> bool {
     }
 }
 
-fn check_id(sink: &mut Sink, path: &str, id: &str, seen: &mut Vec<String>, what: &str) {
+/// Ids already given in one list: id → path of the element that has it.
+type Seen = BTreeMap<String, String>;
+
+fn check_id(sink: &mut Sink, element: &str, id: &str, seen: &mut Seen, what: &str) {
+    let path = format!("{element}.id");
     if id.trim().is_empty() {
         sink.error(path, format!("{what} id must not be empty"));
-    } else if seen.iter().any(|s| s == id) {
-        sink.error(path, format!("duplicate {what} id `{id}`"));
+    } else if let Some(first) = seen.get(id) {
+        sink.error(
+            path,
+            format!("duplicate {what} id `{id}`: {first} already has it"),
+        );
     } else {
-        seen.push(id.to_string());
+        seen.insert(id.to_string(), element.to_string());
     }
 }
 
@@ -259,6 +741,13 @@ pub fn convert_task(
         ok &= check_number(sink, &need_path, "need", need);
         ok &= check_number(sink, &format!("{npath}.sd"), "sd", sd);
         needs[k] = Need { need, sd };
+    }
+    if t.accepts.as_ref().is_some_and(|a| a.is_empty()) {
+        sink.error(
+            format!("{path}.accepts"),
+            "accepts is empty, so no unit could ever be placed; leave it out to accept every type",
+        );
+        ok = false;
     }
     let accepts = t.accepts.as_ref().map(|list| {
         list.iter()
@@ -378,13 +867,13 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
     if f.traits.is_empty() {
         sink.error("traits", "at least one trait is required");
     }
-    let mut seen = Vec::new();
+    let mut seen = Seen::new();
     let traits: Vec<TraitDef> = f
         .traits
         .iter()
         .enumerate()
         .map(|(i, t)| {
-            check_id(sink, &format!("traits[{i}].id"), &t.id, &mut seen, "trait");
+            check_id(sink, &format!("traits[{i}]"), &t.id, &mut seen, "trait");
             TraitDef {
                 id: t.id.clone(),
                 label: t.label.clone().unwrap_or_else(|| t.id.clone()),
@@ -393,11 +882,11 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
         })
         .collect();
 
-    let mut seen = Vec::new();
+    let mut seen = Seen::new();
     let mut unit_types = Vec::new();
     for (i, ty) in f.unit_types.iter().enumerate() {
         let path = format!("unit_types[{i}]");
-        check_id(sink, &format!("{path}.id"), &ty.id, &mut seen, "unit type");
+        check_id(sink, &path, &ty.id, &mut seen, "unit type");
         let rho = ty.rho.unwrap_or(0.0);
         if !(rho.is_finite() && (0.0..=1.0).contains(&rho)) {
             sink.error(
@@ -438,13 +927,18 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
         pins: BTreeMap::new(),
     };
 
-    let mut seen = Vec::new();
+    // Units and tasks that did not convert: left out of the checks of
+    // placement and pins, which would only echo their problem.
+    let mut broken_units = vec![false; f.units.len()];
+    let mut broken_tasks = vec![false; f.tasks.len()];
+    let mut seen = Seen::new();
     for (i, u) in f.units.iter().enumerate() {
         let path = format!("units[{i}]");
-        check_id(sink, &format!("{path}.id"), &u.id, &mut seen, "unit");
+        check_id(sink, &path, &u.id, &mut seen, "unit");
         if let Some(unit) = convert_unit(&incident, u, &path, sink) {
             incident.add_unit(unit);
         } else {
+            broken_units[i] = true;
             // Keep indices aligned with the file so later references resolve.
             incident.add_unit(Unit {
                 id: u.id.clone(),
@@ -454,11 +948,13 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
             });
         }
     }
-    let mut seen = Vec::new();
+    let mut seen = Seen::new();
     for (i, t) in f.tasks.iter().enumerate() {
         let path = format!("tasks[{i}]");
-        check_id(sink, &format!("{path}.id"), &t.id, &mut seen, "task");
-        let task = convert_task(&incident, t, &path, sink).unwrap_or_else(|| Task {
+        check_id(sink, &path, &t.id, &mut seen, "task");
+        let task = convert_task(&incident, t, &path, sink);
+        broken_tasks[i] = task.is_none();
+        let task = task.unwrap_or_else(|| Task {
             id: t.id.clone(),
             label: t.id.clone(),
             tier: Tier::Property,
@@ -470,14 +966,11 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
         });
         incident.tasks.push(task);
     }
-    if !sink.out.is_empty() {
-        return incident;
-    }
 
     for (uid, tid) in &f.placement {
         let path = format!("placement.{uid}");
         let Some(u) = incident.unit_idx(uid) else {
-            sink.error(&path, format!("unknown unit `{uid}`"));
+            sink.error_at_key("placement", uid, format!("unknown unit `{uid}`"));
             continue;
         };
         let Some(tid) = tid else { continue };
@@ -485,84 +978,95 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
             sink.error(&path, format!("unknown task `{tid}`"));
             continue;
         };
-        let unit = &incident.units[u];
-        let task = &incident.tasks[t];
-        if unit.status == UnitStatus::OutOfService {
-            sink.error(
-                &path,
-                format!("unit `{uid}` is out of service and cannot be placed"),
-            );
-        } else if !task.is_open() {
-            sink.error(&path, format!("task `{tid}` is closed"));
-        } else if !task.accepts_type(unit.type_idx) {
-            sink.error(
-                &path,
-                format!(
-                    "task `{tid}` does not accept unit type `{}`",
-                    incident.unit_types[unit.type_idx].id
-                ),
-            );
-        } else {
-            incident.placement.set(u, Some(t));
+        if broken_units[u] || broken_tasks[t] {
+            continue;
+        }
+        match placement_problem(&incident, u, t) {
+            Some(why) => sink.error(&path, format!("`{uid}` cannot be on `{tid}`: {why}")),
+            None => incident.placement.set(u, Some(t)),
         }
     }
     for (uid, tid) in &f.pins {
         let path = format!("pins.{uid}");
         let Some(u) = incident.unit_idx(uid) else {
-            sink.error(&path, format!("unknown unit `{uid}`"));
+            sink.error_at_key("pins", uid, format!("unknown unit `{uid}`"));
             continue;
         };
         let Some(t) = incident.task_idx(tid) else {
             sink.error(&path, format!("unknown task `{tid}`"));
             continue;
         };
-        if !incident.may_place(u, t) {
-            sink.error(
-                &path,
-                format!("unit `{uid}` cannot be pinned to `{tid}` (out of service, closed task or type not accepted)"),
-            );
-        } else {
-            incident.pins.insert(u, t);
+        if broken_units[u] || broken_tasks[t] {
+            continue;
+        }
+        // A pin binds the plan, not the ground: a unit pinned to one task may
+        // stand on another now; the plan will move it.
+        match placement_problem(&incident, u, t) {
+            Some(why) => sink.error(&path, format!("`{uid}` cannot be pinned to `{tid}`: {why}")),
+            None => {
+                incident.pins.insert(u, t);
+            }
         }
     }
     for (t, task) in incident.tasks.iter().enumerate() {
-        if let Some(max) = task.max_units {
-            let pinned = incident.pins.values().filter(|&&pt| pt == t).count();
-            if pinned as u32 > max {
-                sink.error(
-                    format!("tasks[{t}].max_units"),
-                    format!(
-                        "{pinned} units are pinned to `{}` but max_units is {max}",
-                        task.id
-                    ),
-                );
-            }
-            let placed = incident.placement.units_on(t).count();
-            if placed as u32 > max {
-                sink.error(
-                    format!("tasks[{t}].max_units"),
-                    format!(
-                        "{placed} units are placed on `{}` but max_units is {max}",
-                        task.id
-                    ),
-                );
-            }
+        let Some(max) = task.max_units else { continue };
+        let pinned = incident.pins.values().filter(|&&pt| pt == t).count();
+        if pinned as u64 > u64::from(max) {
+            sink.error(
+                format!("tasks[{t}].max_units"),
+                format!(
+                    "{pinned} units are pinned to `{}` but its max_units is {max}",
+                    task.id
+                ),
+            );
+        }
+        let placed = incident.placement.units_on(t).count();
+        if placed as u64 > u64::from(max) {
+            sink.error(
+                format!("tasks[{t}].max_units"),
+                format!(
+                    "{placed} units are placed on `{}` but its max_units is {max}",
+                    task.id
+                ),
+            );
         }
     }
+    // Pinned units must go to their tasks, so only available unpinned units
+    // can make up the reserve.
     let available = incident
         .units
         .iter()
         .filter(|u| u.status == UnitStatus::Available)
-        .count() as u32;
-    let pinned = incident.pins.len() as u32;
-    if reserve_min > available.saturating_sub(pinned) {
+        .count();
+    let free = available.saturating_sub(incident.pins.len());
+    if reserve_min as usize > free {
         sink.error(
             "incident.reserve_min",
             format!(
-                "reserve_min is {reserve_min} but only {} available unpinned units exist",
-                available.saturating_sub(pinned)
+                "reserve_min is {reserve_min} but only {free} units are available and not pinned"
             ),
         );
     }
     incident
+}
+
+/// Why unit `u` may not stand on (or be pinned to) task `t`, if it may not.
+fn placement_problem(incident: &Incident, u: UnitIdx, t: TaskIdx) -> Option<String> {
+    let unit = &incident.units[u];
+    let task = &incident.tasks[t];
+    if unit.status == UnitStatus::OutOfService {
+        Some("the unit is out of service".to_string())
+    } else if let Some(outcome) = task.outcome {
+        Some(format!("the task is closed ({})", outcome.as_str()))
+    } else if !task.accepts_type(unit.type_idx) {
+        Some(format!(
+            "the task does not accept unit type `{}`",
+            incident
+                .unit_types
+                .get(unit.type_idx)
+                .map_or("?", |ty| ty.id.as_str())
+        ))
+    } else {
+        None
+    }
 }

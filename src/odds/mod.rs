@@ -55,6 +55,16 @@ pub enum ForcedZero {
     BelowMinimum,
 }
 
+impl ForcedZero {
+    /// The name used in JSON: `no_units` or `below_minimum`.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            ForcedZero::NoUnits => "no_units",
+            ForcedZero::BelowMinimum => "below_minimum",
+        }
+    }
+}
+
 /// Odds of one trait of one task.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct TraitOdds {

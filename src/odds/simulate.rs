@@ -109,7 +109,20 @@ pub fn wilson_interval(successes: u64, trials: u64, z: f64) -> (f64, f64) {
     let denom = 1.0 + z2 / n;
     let centre = (p + z2 / (2.0 * n)) / denom;
     let half = z / denom * (p * (1.0 - p) / n + z2 / (4.0 * n * n)).sqrt();
-    ((centre - half).max(0.0), (centre + half).min(1.0))
+    // At 0 (or n) successes the lower (upper) end is exactly 0 (1); the
+    // formula gets there only up to rounding, which must not exclude a model
+    // that says exactly 0 or 1.
+    let low = if successes == 0 {
+        0.0
+    } else {
+        (centre - half).max(0.0)
+    };
+    let high = if successes >= trials {
+        1.0
+    } else {
+        (centre + half).min(1.0)
+    };
+    (low, high)
 }
 
 /// The two-sided standard normal quantile for a confidence level, e.g.
@@ -384,6 +397,10 @@ mod tests {
         // region): 0 of 100 at z = 1.96 → upper 0.0370.
         let (lo, hi) = wilson_interval(0, 100, 1.96);
         assert_eq!(lo, 0.0);
+        for n in [7, 2000, 100_000] {
+            assert_eq!(wilson_interval(0, n, 2.575).0, 0.0);
+            assert_eq!(wilson_interval(n, n, 2.575).1, 1.0);
+        }
         assert!((hi - 0.036_994).abs() < 1e-5, "{hi}");
     }
 

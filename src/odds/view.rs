@@ -150,15 +150,6 @@ fn trait_view(incident: &Incident, t: &TraitOdds) -> TraitView {
     }
 }
 
-impl ForcedZero {
-    pub fn as_str(self) -> &'static str {
-        match self {
-            ForcedZero::NoUnits => "no_units",
-            ForcedZero::BelowMinimum => "below_minimum",
-        }
-    }
-}
-
 /// Builds the view of one task reading.
 pub fn task_view(incident: &Incident, odds: &TaskOdds) -> TaskView {
     let task = &incident.tasks[odds.task_idx];

@@ -1,10 +1,11 @@
 //! The after-action report: a Markdown document made from a log alone.
 
+use super::calibration::ReliabilityBin;
 use super::calibration::{brier_score, brier_score_two_class, reliability_table};
 use super::timeline::{ClosedTask, Row, TierWorst, TimelineWalker};
 use super::{CAUTIONS, fmt_odds};
-use crate::log::{Event, LogError, OutcomeValue, Record};
-use crate::model::Tier;
+use crate::log::{Event, LogError, Move, OutcomeValue, Record};
+use serde::Serialize;
 use std::fmt::Write as _;
 
 /// What happened to one proposal.
@@ -38,9 +39,92 @@ fn md_escape(s: &str) -> String {
     s.replace('|', "\\|").replace('\n', " ")
 }
 
-/// Writes the report for `records` (the first must be the snapshot); `source`
-/// names the log in the header.
-pub fn after_action_report(records: &[Record], source: &str) -> Result<String, LogError> {
+/// One point of the worst-odds timeline.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct WorstPoint {
+    pub seq: u64,
+    pub at: String,
+    pub event: String,
+    /// Worst ground odds per tier: life, stabilization, property.
+    pub worst: TierWorst,
+}
+
+/// One record in words.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct EventLine {
+    pub seq: u64,
+    pub at: String,
+    pub by: String,
+    pub kind: &'static str,
+    pub event: String,
+}
+
+/// A proposal and what became of it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ProposalSummary {
+    pub seq: u64,
+    pub event: String,
+    pub moves: Vec<Move>,
+    pub worst_before: TierWorst,
+    pub worst_proposed: TierWorst,
+    /// `accepted`, `accepted_changed`, `rejected`, `superseded` or `pending`.
+    pub resolution: &'static str,
+    /// The record that accepted, rejected or superseded it.
+    pub resolved_at: Option<u64>,
+    /// Ground moves by hand while it was pending or after it was rejected,
+    /// until the next proposal.
+    pub done_instead: Vec<String>,
+}
+
+/// A closed task and the odds the ground gave it just before.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct OutcomeLine {
+    pub task: String,
+    pub tier: &'static str,
+    pub seq: u64,
+    pub outcome: &'static str,
+    pub predicted: f64,
+}
+
+/// Everything the after-action report says, as data (`report --json`).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AfterAction {
+    pub incident: String,
+    pub started: Option<String>,
+    pub log: String,
+    pub records: usize,
+    pub first_at: String,
+    pub last_at: String,
+    pub actors: Vec<String>,
+    pub units_at_start: usize,
+    pub tasks_at_start: usize,
+    pub units_at_end: usize,
+    pub tasks_at_end: usize,
+    pub closed_at_end: usize,
+    /// Secure levels: life, stabilization, property.
+    pub secure: [f64; 3],
+    /// The records after which some tier's worst odds changed (and the first).
+    pub worst_timeline: Vec<WorstPoint>,
+    pub events: Vec<EventLine>,
+    pub proposals: Vec<ProposalSummary>,
+    pub outcomes: Vec<OutcomeLine>,
+    /// Brier score (binary form) over tasks closed as succeeded or failed.
+    pub brier_score: Option<f64>,
+    /// Brier's two-class form (twice the binary one).
+    pub brier_score_two_class: Option<f64>,
+    pub scored_tasks: usize,
+    pub reliability: Vec<ReliabilityBin>,
+    pub notes: Vec<(u64, String)>,
+    pub cautions: Vec<&'static str>,
+}
+
+fn time_of(at: &chrono::DateTime<chrono::Utc>) -> String {
+    at.to_rfc3339_opts(chrono::SecondsFormat::Millis, true)
+}
+
+/// Builds the report data for `records` (the first must be the snapshot);
+/// `source` names the log.
+pub fn after_action(records: &[Record], source: &str) -> Result<AfterAction, LogError> {
     let Some((first, rest)) = records.split_first() else {
         return Err(LogError::Refused {
             seq: 0,
@@ -105,51 +189,132 @@ pub fn after_action_report(records: &[Record], source: &str) -> Result<String, L
         rows.push(row);
     }
     let end_state = walker.state();
+    let last = records.last().unwrap_or(first);
+    let mut actors: Vec<String> = records.iter().map(|r| r.by.clone()).collect();
+    actors.sort_unstable();
+    actors.dedup();
+    let mut worst_timeline = Vec::new();
+    let mut prev: Option<TierWorst> = None;
+    for row in &rows {
+        if prev.as_ref() == Some(&row.worst) {
+            continue;
+        }
+        prev = Some(row.worst);
+        worst_timeline.push(WorstPoint {
+            seq: row.seq,
+            at: time_of(&row.at),
+            event: row.words.clone(),
+            worst: row.worst,
+        });
+    }
+    let forecasts = forecasts(&closed);
+    Ok(AfterAction {
+        incident: start_state.name.clone(),
+        started: start_state.started.clone(),
+        log: source.to_string(),
+        records: records.len(),
+        first_at: time_of(&first.at),
+        last_at: time_of(&last.at),
+        actors,
+        units_at_start: start_state.units.len(),
+        tasks_at_start: start_state.tasks.len(),
+        units_at_end: end_state.units.len(),
+        tasks_at_end: end_state.tasks.len(),
+        closed_at_end: end_state.tasks.iter().filter(|t| !t.is_open()).count(),
+        secure: start_state.secure.levels,
+        worst_timeline,
+        events: rows
+            .iter()
+            .map(|r| EventLine {
+                seq: r.seq,
+                at: time_of(&r.at),
+                by: r.by.clone(),
+                kind: r.kind,
+                event: r.words.clone(),
+            })
+            .collect(),
+        proposals: proposals
+            .into_iter()
+            .map(|p| {
+                let moves = match records.get(p.seq as usize - 1).map(|x| &x.event) {
+                    Some(Event::PlanProposed { moves }) => moves.clone(),
+                    _ => Vec::new(),
+                };
+                let (resolution, resolved_at) = match p.resolution {
+                    Resolution::Accepted { seq, same: true } => ("accepted", Some(seq)),
+                    Resolution::Accepted { seq, same: false } => ("accepted_changed", Some(seq)),
+                    Resolution::Rejected { seq } => ("rejected", Some(seq)),
+                    Resolution::Superseded { seq } => ("superseded", Some(seq)),
+                    Resolution::Pending => ("pending", None),
+                };
+                ProposalSummary {
+                    seq: p.seq,
+                    event: p.words,
+                    moves,
+                    worst_before: p.worst_before,
+                    worst_proposed: p.worst_proposed,
+                    resolution,
+                    resolved_at,
+                    done_instead: p.done_instead,
+                }
+            })
+            .collect(),
+        outcomes: closed
+            .iter()
+            .map(|(seq, c)| OutcomeLine {
+                task: c.task.clone(),
+                tier: c.tier.as_str(),
+                seq: *seq,
+                outcome: c.outcome.as_str(),
+                predicted: c.predicted,
+            })
+            .collect(),
+        brier_score: brier_score(&forecasts),
+        brier_score_two_class: brier_score_two_class(&forecasts),
+        scored_tasks: forecasts.len(),
+        reliability: reliability_table(&forecasts, 10),
+        notes: walker.replay().notes.clone(),
+        cautions: CAUTIONS.to_vec(),
+    })
+}
+
+/// Writes the Markdown report for `records` (the first must be the
+/// snapshot); `source` names the log in the header.
+pub fn after_action_report(records: &[Record], source: &str) -> Result<String, LogError> {
+    Ok(render_markdown(&after_action(records, source)?))
+}
+
+/// The report as Markdown.
+pub fn render_markdown(a: &AfterAction) -> String {
     let mut out = String::new();
-    let name = &start_state.name;
-    let _ = writeln!(out, "# After-action report: {}\n", md_escape(name));
+    let _ = writeln!(out, "# After-action report: {}\n", md_escape(&a.incident));
     let _ = writeln!(
         out,
         "> Decision support only: the odds are only as good as the ratings. See the cautions at the end.\n"
     );
 
-    // The incident.
     let _ = writeln!(out, "## The incident\n");
-    let _ = writeln!(out, "- Log: `{source}`");
-    if let Some(s) = &start_state.started {
+    let _ = writeln!(out, "- Log: `{}`", a.log);
+    if let Some(s) = &a.started {
         let _ = writeln!(out, "- Started: {s}");
     }
-    let last = records.last().unwrap_or(first);
     let _ = writeln!(
         out,
         "- Records: {} (seq 1–{}), {} to {}",
-        records.len(),
-        last.seq,
-        first.at.to_rfc3339_opts(chrono::SecondsFormat::Secs, true),
-        last.at.to_rfc3339_opts(chrono::SecondsFormat::Secs, true)
+        a.records, a.records, a.first_at, a.last_at
     );
-    let mut actors: Vec<&str> = records.iter().map(|r| r.by.as_str()).collect();
-    actors.sort_unstable();
-    actors.dedup();
-    let _ = writeln!(out, "- Written by: {}", actors.join(", "));
+    let _ = writeln!(out, "- Written by: {}", a.actors.join(", "));
     let _ = writeln!(
         out,
         "- At the start: {} units, {} tasks; at the end: {} units, {} tasks ({} closed)",
-        start_state.units.len(),
-        start_state.tasks.len(),
-        end_state.units.len(),
-        end_state.tasks.len(),
-        end_state.tasks.iter().filter(|t| !t.is_open()).count()
+        a.units_at_start, a.tasks_at_start, a.units_at_end, a.tasks_at_end, a.closed_at_end
     );
     let _ = writeln!(
         out,
         "- Secure levels: life {}, stabilization {}, property {}\n",
-        start_state.secure.get(Tier::Life),
-        start_state.secure.get(Tier::Stabilization),
-        start_state.secure.get(Tier::Property)
+        a.secure[0], a.secure[1], a.secure[2]
     );
 
-    // Worst odds over time: the rows where a tier's worst odds changed.
     let _ = writeln!(out, "## Worst odds on the ground over time\n");
     let _ = writeln!(
         out,
@@ -157,66 +322,58 @@ pub fn after_action_report(records: &[Record], source: &str) -> Result<String, L
     );
     let _ = writeln!(
         out,
-        "| seq | time | event | life | stabilization | property |"
+        "| seq | time (UTC) | event | life | stabilization | property |"
     );
     let _ = writeln!(out, "|---:|---|---|---:|---:|---:|");
-    let mut prev: Option<TierWorst> = None;
-    for row in &rows {
-        if prev.as_ref() == Some(&row.worst) {
-            continue;
-        }
-        prev = Some(row.worst);
+    for w in &a.worst_timeline {
         let _ = writeln!(
             out,
             "| {} | {} | {} | {} |",
-            row.seq,
-            row.at.format("%H:%M:%S"),
-            md_escape(&row.words),
-            worst_cells(&row.worst)
+            w.seq,
+            short_time(&w.at),
+            md_escape(&w.event),
+            worst_cells(&w.worst)
         );
     }
     let _ = writeln!(out);
 
-    // Each event.
     let _ = writeln!(out, "## Events\n");
     let _ = writeln!(out, "| seq | time (UTC) | by | event |");
     let _ = writeln!(out, "|---:|---|---|---|");
-    for row in &rows {
+    for e in &a.events {
         let _ = writeln!(
             out,
             "| {} | {} | {} | {} |",
-            row.seq,
-            row.at.format("%Y-%m-%d %H:%M:%S"),
-            md_escape(&row.by),
-            md_escape(&row.words)
+            e.seq,
+            short_time(&e.at),
+            md_escape(&e.by),
+            md_escape(&e.event)
         );
     }
     let _ = writeln!(out);
 
-    // Proposals.
     let _ = writeln!(out, "## Proposals and what was done\n");
-    if proposals.is_empty() {
+    if a.proposals.is_empty() {
         let _ = writeln!(out, "No plan was proposed in this log.\n");
     }
-    for p in &proposals {
+    for p in &a.proposals {
         let _ = writeln!(out, "### Proposal at seq {}\n", p.seq);
-        let _ = writeln!(out, "- {}", md_escape(&p.words));
+        let _ = writeln!(out, "- {}", md_escape(&p.event));
         let _ = writeln!(
             out,
-            "- Worst odds (life | stabilization | property): before {} → proposed {}",
+            "- Worst odds (life / stabilization / property): before {} → proposed {}",
             worst_cells(&p.worst_before).replace(" | ", " / "),
             worst_cells(&p.worst_proposed).replace(" | ", " / ")
         );
-        let what = match &p.resolution {
-            Resolution::Accepted { seq, same: true } => format!("accepted as proposed (seq {seq})"),
-            Resolution::Accepted { seq, same: false } => {
-                format!("accepted with different moves (seq {seq})")
+        let at = p.resolved_at.unwrap_or(0);
+        let what = match p.resolution {
+            "accepted" => format!("accepted as proposed (seq {at})"),
+            "accepted_changed" => format!("accepted with different moves (seq {at})"),
+            "rejected" => format!("rejected (seq {at})"),
+            "superseded" => {
+                format!("neither accepted nor rejected; superseded by the proposal at seq {at}")
             }
-            Resolution::Rejected { seq } => format!("rejected (seq {seq})"),
-            Resolution::Superseded { seq } => {
-                format!("neither accepted nor rejected; superseded by the proposal at seq {seq}")
-            }
-            Resolution::Pending => "still pending when the log ends".into(),
+            _ => "still pending when the log ends".into(),
         };
         let _ = writeln!(out, "- Outcome: {what}");
         if !p.done_instead.is_empty() {
@@ -229,9 +386,8 @@ pub fn after_action_report(records: &[Record], source: &str) -> Result<String, L
         let _ = writeln!(out);
     }
 
-    // Outcomes and calibration.
     let _ = writeln!(out, "## Task outcomes against the odds\n");
-    if closed.is_empty() {
+    if a.outcomes.is_empty() {
         let _ = writeln!(out, "No task was closed in this log.\n");
     } else {
         let _ = writeln!(
@@ -243,22 +399,21 @@ pub fn after_action_report(records: &[Record], source: &str) -> Result<String, L
             "| task | tier | closed at seq | outcome | predicted odds |"
         );
         let _ = writeln!(out, "|---|---|---:|---|---:|");
-        for (seq, c) in &closed {
+        for o in &a.outcomes {
             let _ = writeln!(
                 out,
                 "| {} | {} | {} | {} | {} |",
-                md_escape(&c.task),
-                c.tier.as_str(),
-                seq,
-                c.outcome.as_str(),
-                fmt_odds(Some(c.predicted))
+                md_escape(&o.task),
+                o.tier,
+                o.seq,
+                o.outcome,
+                fmt_odds(Some(o.predicted))
             );
         }
         let _ = writeln!(out);
     }
-    let forecasts = forecasts(&closed);
     let _ = writeln!(out, "### Calibration\n");
-    match brier_score(&forecasts) {
+    match a.brier_score {
         None => {
             let _ = writeln!(
                 out,
@@ -269,15 +424,15 @@ pub fn after_action_report(records: &[Record], source: &str) -> Result<String, L
             let _ = writeln!(
                 out,
                 "Brier score (Brier 1950; mean of (odds − outcome)², outcome 1 if succeeded, 0 if failed; 0 is perfect, 0.25 is always saying 50 %): **{bs:.4}** over {} tasks (Brier's two-class form: {:.4}). Cancelled tasks are left out.\n",
-                forecasts.len(),
-                brier_score_two_class(&forecasts).unwrap_or(f64::NAN)
+                a.scored_tasks,
+                a.brier_score_two_class.unwrap_or(f64::NAN)
             );
             let _ = writeln!(
                 out,
                 "| predicted odds | tasks | mean predicted | succeeded |"
             );
             let _ = writeln!(out, "|---|---:|---:|---:|");
-            for b in reliability_table(&forecasts, 10) {
+            for b in &a.reliability {
                 let _ = writeln!(
                     out,
                     "| {:.1}–{:.1} | {} | {:.3} | {:.3} |",
@@ -285,31 +440,34 @@ pub fn after_action_report(records: &[Record], source: &str) -> Result<String, L
                 );
             }
             let _ = writeln!(out);
-            if forecasts.len() < 30 {
+            if a.scored_tasks < 30 {
                 let _ = writeln!(
                     out,
                     "With only {} scored tasks this says little about calibration: read it as a prompt for debriefing, not as a verdict on the ratings.\n",
-                    forecasts.len()
+                    a.scored_tasks
                 );
             }
         }
     }
 
-    // Notes.
-    let notes = &walker.replay().notes;
-    if !notes.is_empty() {
+    if !a.notes.is_empty() {
         let _ = writeln!(out, "## Notes\n");
-        for (seq, text) in notes {
+        for (seq, text) in &a.notes {
             let _ = writeln!(out, "- seq {seq}: {}", md_escape(text));
         }
         let _ = writeln!(out);
     }
 
     let _ = writeln!(out, "## Cautions\n");
-    for c in CAUTIONS {
+    for c in &a.cautions {
         let _ = writeln!(out, "- {c}");
     }
-    Ok(out)
+    out
+}
+
+/// `YYYY-MM-DD HH:MM:SS` of an RFC 3339 time.
+fn short_time(at: &str) -> String {
+    at.get(..19).unwrap_or(at).replace('T', " ")
 }
 
 /// (predicted odds, succeeded) of every task closed as succeeded or failed.

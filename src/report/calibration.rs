@@ -42,7 +42,7 @@ pub fn brier_score_two_class(forecasts: &[(f64, bool)]) -> Option<f64> {
 
 /// One bin of a reliability table: forecasts in `[low, high)` (the last bin
 /// includes 1).
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct ReliabilityBin {
     pub low: f64,
     pub high: f64,

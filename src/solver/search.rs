@@ -27,6 +27,10 @@ pub struct Ctx<'a> {
     pub movable: Vec<UnitIdx>,
     pub max_units: Vec<u32>,
     pub reserve_min: u32,
+    /// Interchangeable units (same type, same ratings, same status) share a
+    /// group: trying one reserve unit of a group stands for all of them.
+    pub group: Vec<usize>,
+    pub n_groups: usize,
 }
 
 impl<'a> Ctx<'a> {
@@ -39,6 +43,18 @@ impl<'a> Ctx<'a> {
             pinned[*u] = Some(*p);
         }
         let mut movable = Vec::new();
+        let mut groups: std::collections::HashMap<Vec<u64>, usize> = Default::default();
+        let mut group = Vec::with_capacity(inc.units.len());
+        for u in 0..inc.units.len() {
+            let unit = &inc.units[u];
+            let mut sig = vec![unit.type_idx as u64, u64::from(pinned[u].is_some())];
+            for r in &unit.ratings {
+                sig.push(r.mean.to_bits());
+                sig.push(r.sd.to_bits());
+            }
+            let next = groups.len();
+            group.push(*groups.entry(sig).or_insert(next));
+        }
         for u in 0..inc.units.len() {
             let row: Vec<bool> = (0..n_tasks).map(|t| inc.may_place(u, t)).collect();
             allowed.push((0..n_tasks).filter(|&t| row[t]).collect());
@@ -59,6 +75,8 @@ impl<'a> Ctx<'a> {
                 .map(|t| t.max_units.unwrap_or(u32::MAX))
                 .collect(),
             reserve_min: inc.reserve_min,
+            n_groups: groups.len(),
+            group,
         }
     }
 
@@ -285,6 +303,7 @@ pub struct SearchOutcome {
 /// helped the reserve unit that raises its odds most.
 pub fn greedy_fill(ctx: &Ctx, state: &mut State) {
     let inc = ctx.inc;
+    let mut seen = vec![false; ctx.n_groups];
     loop {
         if state.reserve <= ctx.reserve_min {
             return;
@@ -302,10 +321,12 @@ pub fn greedy_fill(ctx: &Ctx, state: &mut State) {
                 state.ln[t]
             };
             let mut best: Option<(UnitIdx, f64)> = None;
+            seen.iter_mut().for_each(|x| *x = false);
             for &u in &ctx.movable {
-                if state.place[u].is_some() || !ctx.allowed_on[u][t] {
+                if state.place[u].is_some() || !ctx.allowed_on[u][t] || seen[ctx.group[u]] {
                     continue;
                 }
+                seen[ctx.group[u]] = true;
                 state.tallies[t].add(inc, u);
                 let ln = if below_min {
                     ln_odds_ignoring_minimum(&state.tallies[t], inc, t)
@@ -333,6 +354,7 @@ pub fn greedy_fill(ctx: &Ctx, state: &mut State) {
 /// The best improving step around the bottleneck tasks, if any.
 pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<Step> {
     let inc = ctx.inc;
+    let mut seen = vec![false; ctx.n_groups];
     let order = state.bottlenecks(inc);
     let zero = TaskChange {
         task: 0,
@@ -357,11 +379,18 @@ pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<S
             after,
         };
         let f_full = state.tallies[f].count() >= ctx.max_units[f];
-        // Moves into f, from reserve or another task.
+        // Moves into f, from reserve (one unit per group) or another task.
+        seen.iter_mut().for_each(|x| *x = false);
         for &u in &ctx.movable {
             let from = state.place[u];
             if from == Some(f) || !ctx.allowed_on[u][f] || f_full {
                 continue;
+            }
+            if from.is_none() {
+                if seen[ctx.group[u]] {
+                    continue;
+                }
+                seen[ctx.group[u]] = true;
             }
             if from.is_none() && state.reserve <= ctx.reserve_min {
                 continue;
@@ -418,10 +447,17 @@ pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<S
         }
         // Swaps of a unit on f with one elsewhere (reserve or a task).
         for &u in &on_f {
+            seen.iter_mut().for_each(|x| *x = false);
             for &v in &ctx.movable {
                 let b = state.place[v];
                 if b == Some(f) || !ctx.allowed_on[v][f] {
                     continue;
+                }
+                if b.is_none() {
+                    if seen[ctx.group[v]] {
+                        continue;
+                    }
+                    seen[ctx.group[v]] = true;
                 }
                 if let Some(b) = b
                     && !ctx.allowed_on[u][b]
@@ -450,15 +486,21 @@ pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<S
     None
 }
 
-pub fn apply_step(inc: &Incident, state: &mut State, step: Step) {
+/// Applies `step` and returns the step that undoes it.
+pub fn apply_step(inc: &Incident, state: &mut State, step: Step) -> Step {
     match step {
-        Step::Move(u, to) => state.apply_move(inc, u, to),
+        Step::Move(u, to) => {
+            let from = state.place[u];
+            state.apply_move(inc, u, to);
+            Step::Move(u, from)
+        }
         Step::Swap(u, v) => {
             let (a, b) = (state.place[u], state.place[v]);
             // Through reserve in between, so counts never exceed a maximum.
             state.apply_move(inc, u, None);
             state.apply_move(inc, v, a);
             state.apply_move(inc, u, b);
+            Step::Swap(u, v)
         }
     }
 }
@@ -521,9 +563,18 @@ pub fn local_search(
                     stopped_by_budget: true,
                 };
             }
-            match best_step(ctx, &mut state, &mut iterations) {
-                Some(step) => apply_step(inc, &mut state, step),
-                None => break,
+            let Some(step) = best_step(ctx, &mut state, &mut iterations) else {
+                break;
+            };
+            // The step was ranked from trial sums; accept it only if the key
+            // of the sums it leaves behind is better too. Tiny rounding in
+            // the running sums could otherwise make a step and its reverse
+            // both look like gains (a cycle).
+            let before = state.key(inc);
+            let undo = apply_step(inc, &mut state, step);
+            if !state.key(inc).better_than(&before) {
+                apply_step(inc, &mut state, undo);
+                break;
             }
         }
         // Rebuild the sums from scratch now and then so rounding never piles up.

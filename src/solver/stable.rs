@@ -95,7 +95,14 @@ pub fn stable_plan(
             break;
         }
         match super::search::best_step(ctx, &mut from_ground, &mut iterations) {
-            Some(step) => apply_step(inc, &mut from_ground, step),
+            Some(step) => {
+                let before = from_ground.key(inc);
+                let undo = apply_step(inc, &mut from_ground, step);
+                if !from_ground.key(inc).better_than(&before) {
+                    apply_step(inc, &mut from_ground, undo);
+                    break;
+                }
+            }
             None => break,
         }
         ok = meets(ctx, &from_ground.ln, thr);

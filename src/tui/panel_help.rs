@@ -32,7 +32,7 @@ pub fn keys(mode: Mode) -> Vec<(&'static str, &'static str)> {
         Mode::Watch => k.push(("", "read-only: follows records others append")),
         Mode::Replay => k.extend([
             ("← →", "one record back / forward"),
-            ("Home End", "first / last record (with Shift)"),
+            ("< >", "first / last record (or Shift-Home / Shift-End)"),
             ("g", "go to a sequence number or a time (HH:MM or RFC 3339)"),
             ("space", "play / pause"),
             ("+ -", "play faster / slower"),

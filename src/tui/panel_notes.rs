@@ -98,7 +98,13 @@ pub fn contextual(state: &AppState) -> Vec<String> {
 
 pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let th = &state.theme;
-    let block = Block::bordered().title(" Safety notes ");
+    let notes = contextual(state);
+    let title = if notes.is_empty() {
+        " Safety notes ".to_string()
+    } else {
+        format!(" Safety notes ({}, most urgent first) ", notes.len())
+    };
+    let block = Block::bordered().title(title);
     let inner = block.inner(area);
     frame.render_widget(block, area);
     // The caution keeps its rows whatever the height.
@@ -110,7 +116,6 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let caution_rows = (caution.chars().count() as u16 / inner.width.max(1) + 1).clamp(2, 5);
     let [notes_area, caution_area] =
         Layout::vertical([Constraint::Fill(1), Constraint::Length(caution_rows)]).areas(inner);
-    let notes = contextual(state);
     let lines: Vec<Line> = if notes.is_empty() {
         vec![Line::styled("No contextual notes.", th.dim())]
     } else {

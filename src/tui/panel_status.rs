@@ -14,7 +14,7 @@ use super::format::{fit, odds_from_ln};
 pub fn key_hint(mode: Mode) -> &'static str {
     match mode {
         Mode::Command => {
-            "↑↓ task · y accept · x reject · l lost · a add · r re-rate · n need · m move · p pin · u undo · ? help · q quit"
+            "y accept · x reject · l lost · a add · r rate · n need · m move · p pin · u undo · ? keys · q quit"
         }
         Mode::Watch => "↑↓ task · PgUp/PgDn units · ? help · q quit · read-only",
         Mode::Replay => "←→ step · Home/End · g go to · space play · +/- speed · ? help · q quit",
@@ -33,7 +33,7 @@ pub fn plan_words(state: &AppState) -> String {
         PlanStatus::Starting => "re-plan: starting…".into(),
         PlanStatus::Improving { elapsed, .. } => match worst(state) {
             Some(w) => format!(
-                "re-plan: improving… best so far worst {w} · {:.1} s",
+                "re-plan: improving… best so far: worst {w} · {:.1} s",
                 elapsed.as_secs_f64()
             ),
             None => format!(
@@ -48,11 +48,12 @@ pub fn plan_words(state: &AppState) -> String {
                 ""
             };
             match worst(state) {
-                Some(w) => format!("re-plan: done{proof} · worst {w}"),
-                None => format!("re-plan: done{proof} · keep the ground as it is"),
+                Some(w) => format!("re-plan: done{proof} · worst if accepted {w}"),
+                None => format!("re-plan: done{proof} · no better plan: keep the ground"),
             }
         }
         PlanStatus::Failed(e) => format!("re-plan failed: {e}"),
+        PlanStatus::Rejected => "re-plan: proposal rejected · waits for a change".into(),
     }
 }
 
@@ -90,17 +91,26 @@ pub fn render_header(state: &AppState, frame: &mut Frame, area: Rect) {
 pub fn render_status(state: &AppState, frame: &mut Frame, area: Rect) {
     let th = &state.theme;
     let plan = plan_words(state);
-    let plan_w = (plan.chars().count() as u16 + 1).min(area.width / 2);
+    // What the re-plan is doing is shown whole (up to 3/5 of the line); the
+    // key hint gives way, `?` lists every key.
+    let plan_w = (plan.chars().count() as u16 + 2).min(area.width * 3 / 5);
     let [left, right] =
         Layout::horizontal([Constraint::Fill(1), Constraint::Length(plan_w)]).areas(area);
     let left_line = match &state.flash {
         Some(f) if f.error => Line::styled(format!("✗ {}", f.text), th.error()),
         Some(f) => Line::styled(format!("✓ {}", f.text), th.secure()),
-        None => Line::styled(key_hint(state.mode), th.dim()),
+        None => Line::styled(
+            fit(key_hint(state.mode), left_width(area, plan_w)),
+            th.dim(),
+        ),
     };
     frame.render_widget(Paragraph::new(left_line), left);
     frame.render_widget(
         Paragraph::new(Line::styled(plan, th.accent())).right_aligned(),
         right,
     );
+}
+
+fn left_width(area: Rect, plan_w: u16) -> usize {
+    area.width.saturating_sub(plan_w) as usize
 }

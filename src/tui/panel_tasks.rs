@@ -18,11 +18,21 @@ pub fn lines(state: &AppState, width: usize) -> (Vec<Line<'static>>, usize) {
     let th = &state.theme;
     let inc = &state.incident;
     let order = state.task_order();
-    let bar_w = if width >= 76 { 10 } else { 6 };
-    let bind_w = if width >= 80 { 22 } else { 19 };
-    // marker, id, odds, bar, regime, binding, units, proposal change
-    let fixed = 2 + 6 + 8 + bar_w + 1 + 9 + bind_w + 5 + 8;
-    let label_w = match width.saturating_sub(fixed + 1) {
+    // Ids are shown whole up to 18 characters (12 on narrow boards): an id
+    // cut short is ambiguous.
+    let longest = inc
+        .tasks
+        .iter()
+        .map(|t| t.id.chars().count())
+        .max()
+        .unwrap_or(4);
+    let id_w = longest.clamp(4, if width < 64 { 12 } else { 18 }) + 1;
+    // marker, id, odds, space after the bar, regime, units, proposal change
+    let base = 2 + id_w + 8 + 1 + 9 + 5 + 8;
+    let rest = width.saturating_sub(base);
+    let bar_w = if rest >= 32 { 10 } else { 6 };
+    let bind_w = rest.saturating_sub(bar_w).clamp(10, 24);
+    let label_w = match rest.saturating_sub(bar_w + bind_w + 1) {
         w if w < 8 => 0,
         w => w.min(30),
     };
@@ -49,7 +59,7 @@ pub fn lines(state: &AppState, width: usize) -> (Vec<Line<'static>>, usize) {
             selected_line = out.len();
         }
         let marker = if selected { "▸ " } else { "  " };
-        let mut spans = vec![Span::raw(marker), Span::raw(pad(&task.id, 6))];
+        let mut spans = vec![Span::raw(marker), Span::raw(pad(&task.id, id_w))];
         if label_w > 0 {
             spans.push(Span::styled(
                 pad(&fit(&task.label, label_w), label_w + 1),

@@ -56,6 +56,14 @@ pub fn lines(state: &AppState) -> Vec<Line<'static>> {
     } else if state.mode == super::app::Mode::Command {
         out.push(Line::styled("No moves proposed.", th.dim()));
     }
+    let id_w = inc
+        .tasks
+        .iter()
+        .map(|t| t.id.chars().count())
+        .max()
+        .unwrap_or(4)
+        .clamp(6, 18)
+        + 1;
     for t in task_order(inc) {
         let task = &inc.tasks[t];
         if !task.is_open() {
@@ -72,7 +80,7 @@ pub fn lines(state: &AppState) -> Vec<Line<'static>> {
             units.join(" ")
         };
         out.push(Line::from(vec![
-            Span::styled(pad(&task.id, 7), th.heading()),
+            Span::styled(pad(&task.id, id_w), th.heading()),
             Span::raw(body),
         ]));
     }

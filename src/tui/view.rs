@@ -9,7 +9,8 @@ use ratatui::widgets::{Paragraph, Wrap};
 
 use super::app::{AppState, Overlay};
 use super::{
-    panel_help, panel_log, panel_notes, panel_picture, panel_status, panel_tasks, panel_units,
+    panel_help, panel_log, panel_notes, panel_picture, panel_replay, panel_status, panel_tasks,
+    panel_units,
 };
 
 /// Smallest terminal the board is drawn in.
@@ -33,8 +34,8 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     panel_status::render_status(state, frame, status);
 
     let left_pct = match area.width {
-        0..120 => 62,
-        120..160 => 56,
+        0..130 => 62,
+        130..160 => 56,
         _ => 52,
     };
     let [left, right] =
@@ -50,6 +51,8 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     panel_units::render(state, frame, units);
 
     let (picture_h, log) = match body.height {
+        // The trainer's panel needs room more than the picture does.
+        _ if state.replay.is_some() && body.height < 45 => (11, Constraint::Fill(1)),
         0..36 => (12, Constraint::Length(6)),
         36..50 => (14, Constraint::Fill(1)),
         _ => (18, Constraint::Fill(1)),
@@ -58,10 +61,16 @@ pub fn render(state: &AppState, frame: &mut Frame) {
         Layout::vertical([Constraint::Length(picture_h), Constraint::Fill(1), log]).areas(right);
     panel_picture::render(state, frame, picture);
     panel_notes::render(state, frame, notes);
-    panel_log::render(state, frame, log);
+    if state.replay.is_some() {
+        panel_replay::render(state, frame, log);
+    } else {
+        panel_log::render(state, frame, log);
+    }
 
-    if state.overlay == Overlay::Help {
-        panel_help::render(state, frame, area);
+    match &state.overlay {
+        Overlay::Help => panel_help::render(state, frame, area),
+        Overlay::Form(form) => super::form::render(form, &state.theme, frame, area),
+        Overlay::None => {}
     }
 }
 

@@ -81,3 +81,88 @@ pub fn draw(state: &AppState, w: u16, h: u16) -> TestBackend {
     terminal.draw(|f| render(state, f)).expect("draw");
     terminal.backend().clone()
 }
+
+use oddsboard::log::{Event, LogWriter, read_log};
+use oddsboard::tui::app::{AppEvent, Effect, update};
+use ratatui::crossterm::event::{KeyCode, KeyEvent};
+
+/// A log of the drill in a temporary folder and the commander's state on it.
+pub struct Bench {
+    pub dir: tempfile::TempDir,
+    pub path: std::path::PathBuf,
+    pub writer: LogWriter,
+    pub state: AppState,
+}
+
+impl Bench {
+    pub fn new(incident: Incident) -> Bench {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let path = dir.path().join("drill.log");
+        let writer = LogWriter::create(&path, &incident, "ic").expect("log created");
+        let records = read_log(&path).expect("log reads").records;
+        let mut state =
+            oddsboard::cli::dash::state_from_records(Mode::Command, &records, Theme::monochrome())
+                .expect("state from log");
+        state.operator = "ic".into();
+        Bench {
+            dir,
+            path,
+            writer,
+            state,
+        }
+    }
+
+    /// Sends one event; appends what the update asks to append, feeds each
+    /// written record back, and returns the events written.
+    pub fn send(&mut self, event: AppEvent) -> Vec<Event> {
+        let mut written = Vec::new();
+        let mut queue: std::collections::VecDeque<Effect> = update(&mut self.state, event).into();
+        while let Some(effect) = queue.pop_front() {
+            if let Effect::Append { events, undoable } = effect {
+                for e in events {
+                    match self.writer.append("ic", e.clone()) {
+                        Ok(record) => {
+                            written.push(e);
+                            queue.extend(update(&mut self.state, AppEvent::RecordAppended(record)));
+                        }
+                        Err(err) => {
+                            queue.extend(update(
+                                &mut self.state,
+                                AppEvent::AppendFailed {
+                                    message: err.to_string(),
+                                    undoable,
+                                },
+                            ));
+                            break;
+                        }
+                    }
+                }
+            }
+        }
+        written
+    }
+
+    pub fn key(&mut self, code: KeyCode) -> Vec<Event> {
+        self.send(AppEvent::Key(KeyEvent::from(code)))
+    }
+
+    /// Types text then presses Enter; returns what was written.
+    pub fn type_enter(&mut self, text: &str) -> Vec<Event> {
+        let mut out = Vec::new();
+        for c in text.chars() {
+            out.extend(self.key(KeyCode::Char(c)));
+        }
+        out.extend(self.key(KeyCode::Enter));
+        out
+    }
+
+    /// The state the log's fold gives.
+    pub fn folded(&self) -> Incident {
+        let records = read_log(&self.path).expect("log reads").records;
+        oddsboard::log::fold(&records).expect("log folds")
+    }
+
+    pub fn records(&self) -> Vec<oddsboard::log::Record> {
+        read_log(&self.path).expect("log reads").records
+    }
+}

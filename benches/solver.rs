@@ -1,0 +1,273 @@
+//! Solver benchmarks on seeded, invented incidents (see docs/performance.md,
+//! section Solver).
+//!
+//! `cargo bench --bench solver` times, with criterion:
+//! * the first plan at 600 × 40 × 5 (budget 0: greedy fill only);
+//! * the proof at 12 × 3 × 2;
+//! * the re-plan after one placed unit is lost at 100 × 15 × 4.
+//!
+//! With `ODDSBOARD_FIGURES=1` it first prints the figures that are not a
+//! single timing: how far proof reaches within 1 s and 10 s (with and
+//! without identical units), the key after 0.1, 0.5 and 2 s at 600 × 40 × 5,
+//! the re-plan time distribution, and the baselines side by side.
+
+use criterion::{Criterion, criterion_group};
+use oddsboard::model::Incident;
+use oddsboard::model::generate::{GenerateSpec, generate};
+use oddsboard::solver::{ObjectiveKey, SolveOptions, SolveReport, baselines, solve};
+use std::hint::black_box;
+use std::sync::atomic::AtomicBool;
+use std::time::{Duration, Instant};
+
+fn incident(units: usize, tasks: usize, traits: usize, seed: u64) -> Incident {
+    match generate(&GenerateSpec::new(units, tasks, traits).seed(seed)) {
+        Ok(i) => i,
+        Err(e) => panic!("generated incident does not load: {e}"),
+    }
+}
+
+/// Every unit a little different from every other (means scaled by
+/// 1 + 0.001·i): no two units are interchangeable.
+fn distinct(mut inc: Incident) -> Incident {
+    for (i, u) in inc.units.iter_mut().enumerate() {
+        for r in &mut u.ratings {
+            r.mean *= 1.0 + 0.001 * (i + 1) as f64;
+        }
+    }
+    inc
+}
+
+/// Every unit back to its type's ratings and in service: many identical units.
+fn identical(mut inc: Incident) -> Incident {
+    for u in &mut inc.units {
+        u.ratings = inc.unit_types[u.type_idx].ratings.clone();
+        u.status = oddsboard::model::UnitStatus::Available;
+    }
+    inc
+}
+
+fn run(inc: &Incident, opts: &SolveOptions) -> SolveReport {
+    match solve(inc, opts, &AtomicBool::new(false), &mut |_| {}) {
+        Ok(r) => r,
+        Err(e) => panic!("infeasible: {e}"),
+    }
+}
+
+fn scratch(budget: Duration) -> SolveOptions {
+    SolveOptions {
+        budget,
+        from_scratch: true,
+        ..SolveOptions::default()
+    }
+}
+
+/// The 100 × 15 × 4 incident with a solved plan on the ground, and the same
+/// incident after the placed unit with the most mean capability is lost.
+fn loss_pair(seed: u64) -> (Incident, Incident) {
+    let mut inc = incident(100, 15, 4, seed);
+    let r = run(&inc, &scratch(Duration::from_millis(500)));
+    inc.placement = r.placement;
+    let lost = (0..inc.units.len())
+        .filter(|&u| inc.placement.get(u).is_some() && !inc.pins.contains_key(&u))
+        .max_by(|&a, &b| {
+            let s = |u: usize| inc.units[u].ratings.iter().map(|r| r.mean).sum::<f64>();
+            s(a).total_cmp(&s(b))
+        })
+        .unwrap_or(0);
+    let mut after = inc.clone();
+    after.remove_unit(lost);
+    (inc, after)
+}
+
+fn replan_options() -> SolveOptions {
+    SolveOptions {
+        budget: Duration::from_millis(1000),
+        exact_max_units: 0,
+        stale_rounds: 5,
+        ..SolveOptions::default()
+    }
+}
+
+fn fmt_key(k: &ObjectiveKey) -> String {
+    let w = k.worst_odds_per_tier();
+    let f = |x: Option<f64>| x.map_or("-".to_string(), |p| format!("{p:.4}"));
+    format!(
+        "life {} stab {} prop {} min {:.4}",
+        f(w[0]),
+        f(w[1]),
+        f(w[2]),
+        k.min_odds()
+    )
+}
+
+fn figures() {
+    println!("== proof reach (from scratch, exact search at any size) ==");
+    let sizes = [
+        (12, 3, 2),
+        (20, 4, 2),
+        (30, 6, 3),
+        (35, 7, 3),
+        (40, 8, 3),
+        (50, 10, 3),
+        (60, 12, 3),
+        (80, 15, 4),
+        (100, 15, 4),
+        (150, 20, 4),
+    ];
+    for ident in [false, true] {
+        for budget_s in [1u64, 10] {
+            let mut reach = None;
+            for (u, t, k) in sizes {
+                let inc = if ident {
+                    identical(incident(u, t, k, 11))
+                } else {
+                    distinct(incident(u, t, k, 11))
+                };
+                let opts = SolveOptions {
+                    exact_max_units: usize::MAX,
+                    ..scratch(Duration::from_secs(budget_s))
+                };
+                let r = run(&inc, &opts);
+                println!(
+                    "  identical={ident} budget={budget_s}s {u}x{t}x{k}: proven={} in {:.1} ms ({} iterations)",
+                    r.proven_optimal,
+                    r.elapsed.as_secs_f64() * 1e3,
+                    r.iterations
+                );
+                if r.proven_optimal {
+                    reach = Some((u, t, k));
+                } else {
+                    break;
+                }
+            }
+            println!("  => identical={ident} budget={budget_s}s: largest proved {reach:?}");
+        }
+    }
+
+    println!("== key after a budget, 600 x 40 x 5 (from scratch, seed 0) ==");
+    let big = incident(600, 40, 5, 1);
+    for ms in [0u64, 100, 500, 2000] {
+        let r = run(&big, &scratch(Duration::from_millis(ms)));
+        println!(
+            "  {ms:>5} ms: {} (stop {}, {:.1} ms, {} iterations)",
+            fmt_key(&r.key),
+            r.stop.as_str(),
+            r.elapsed.as_secs_f64() * 1e3,
+            r.iterations
+        );
+    }
+
+    println!("== re-plan after one loss, 100 x 15 x 4 (10 seeds) ==");
+    let mut first = Vec::new();
+    let mut settled = Vec::new();
+    for seed in 0..10 {
+        let (_, after) = loss_pair(seed);
+        let quick = SolveOptions {
+            budget: Duration::ZERO,
+            ..replan_options()
+        };
+        let t = Instant::now();
+        let r0 = run(&after, &quick);
+        first.push(t.elapsed().as_secs_f64() * 1e3);
+        let r = run(&after, &replan_options());
+        settled.push(r.elapsed.as_secs_f64() * 1e3);
+        let r5 = run(
+            &after,
+            &SolveOptions {
+                budget: Duration::from_millis(5),
+                ..replan_options()
+            },
+        );
+        let same = if r5.key.compare(&r.key) == std::cmp::Ordering::Less {
+            "worse than settled"
+        } else {
+            "as good as settled"
+        };
+        println!(
+            "  seed {seed}: 5 ms budget: {} moves, key {same} ({})",
+            r5.moves.len(),
+            fmt_key(&r5.key)
+        );
+        println!(
+            "  seed {seed}: first proposal {:.2} ms ({} moves), settled {:.1} ms ({} moves, {})",
+            first[first.len() - 1],
+            r0.moves.len(),
+            r.elapsed.as_secs_f64() * 1e3,
+            r.moves.len(),
+            fmt_key(&r.key)
+        );
+    }
+    let p50 = |v: &mut Vec<f64>| {
+        v.sort_by(f64::total_cmp);
+        v[v.len() / 2]
+    };
+    println!(
+        "  p50 first proposal {:.2} ms, p50 settled {:.1} ms",
+        p50(&mut first),
+        p50(&mut settled)
+    );
+
+    println!("== baselines side by side (from scratch, 1 s) ==");
+    for (u, t, k) in [(30, 6, 3), (100, 15, 4)] {
+        let inc = incident(u, t, k, 1);
+        let r = run(&inc, &scratch(Duration::from_secs(1)));
+        println!("  {u}x{t}x{k} recommended: {}", fmt_key(&r.key));
+        let ev = baselines::expected_value(&inc);
+        let ms = baselines::mean_minus_spread(&inc, 1.0);
+        let rnd = baselines::random_feasible(&inc, 0);
+        for (name, p) in [
+            ("expected value", ev),
+            ("mean - spread", ms),
+            ("random", rnd),
+        ] {
+            println!(
+                "  {u}x{t}x{k} {name}: {}",
+                fmt_key(&ObjectiveKey::of(&inc, &p))
+            );
+        }
+    }
+}
+
+fn benches(c: &mut Criterion) {
+    let big = incident(600, 40, 5, 1);
+    c.bench_function("first_plan_600x40x5", |b| {
+        b.iter(|| run(black_box(&big), &scratch(Duration::ZERO)))
+    });
+    let small = incident(12, 3, 2, 11);
+    c.bench_function("proof_12x3x2", |b| {
+        b.iter(|| {
+            let r = run(black_box(&small), &scratch(Duration::from_secs(10)));
+            assert!(r.proven_optimal);
+            r
+        })
+    });
+    let (_, after) = loss_pair(0);
+    c.bench_function("replan_after_loss_100x15x4_first_proposal", |b| {
+        b.iter(|| {
+            run(
+                black_box(&after),
+                &SolveOptions {
+                    budget: Duration::ZERO,
+                    ..replan_options()
+                },
+            )
+        })
+    });
+    c.bench_function("replan_after_loss_100x15x4_settled", |b| {
+        b.iter(|| run(black_box(&after), &replan_options()))
+    });
+}
+
+criterion_group! {
+    name = solver;
+    config = Criterion::default().sample_size(10).measurement_time(Duration::from_secs(5));
+    targets = benches
+}
+
+fn main() {
+    if std::env::var_os("ODDSBOARD_FIGURES").is_some() {
+        figures();
+    }
+    solver();
+    Criterion::default().configure_from_args().final_summary();
+}

@@ -1,0 +1,42 @@
+//! Starting a dashboard on the real terminal: panic hook first, then the
+//! terminal, the tokio runtime and the event sources; the terminal is
+//! restored however the run ends. The log is followed on every tick
+//! (200 ms).
+
+use std::path::PathBuf;
+use std::time::Duration;
+
+use super::app::AppState;
+use super::planner::SharedPlanner;
+use super::runtime::{LogSink, Runtime};
+use super::terminal;
+
+/// What a run needs besides the state.
+pub struct Launch {
+    pub planner: Option<SharedPlanner>,
+    pub log: Option<Box<dyn LogSink>>,
+    /// Log to follow from this byte offset (records others append).
+    pub follow: Option<(PathBuf, u64)>,
+}
+
+/// Runs the dashboard until quit. The panic hook is installed before the
+/// terminal is touched.
+pub fn run(mut state: AppState, launch: Launch) -> anyhow::Result<()> {
+    terminal::install_panic_hook();
+    let rt = tokio::runtime::Builder::new_multi_thread()
+        .worker_threads(2)
+        .enable_all()
+        .build()?;
+    let mut tty = terminal::enter()?;
+    let result = rt.block_on(async {
+        let mut runtime = Runtime::new(launch.planner);
+        runtime.log = launch.log;
+        runtime.spawn_sources();
+        runtime.follow = launch.follow;
+        runtime.run(&mut tty, &mut state).await
+    });
+    terminal::restore();
+    // A re-plan thread may still be winding down after its cancel flag.
+    rt.shutdown_timeout(Duration::from_millis(300));
+    result.map_err(anyhow::Error::from)
+}

@@ -1,0 +1,87 @@
+//! Replay navigation (jump by sequence number and by time, play at a speed)
+//! and NO_COLOR: with colour off no cell carries a colour, and the board's
+//! meaning (regime, tier, odds) is in words and symbols either way.
+
+mod tui_common;
+
+use oddsboard::log::Event;
+use oddsboard::tui::app::{AppEvent, replay_seek, replay_state, replay_target};
+use oddsboard::tui::{Mode, Theme, update};
+use ratatui::crossterm::event::KeyCode;
+use ratatui::style::Color;
+use tui_common::{Bench, draw, drill};
+
+fn log_with_notes(n: usize) -> Vec<oddsboard::log::Record> {
+    let mut b = Bench::new(drill());
+    for i in 0..n {
+        b.writer
+            .append(
+                "ic",
+                Event::Note {
+                    text: format!("note {i}"),
+                },
+            )
+            .unwrap();
+    }
+    b.records()
+}
+
+#[test]
+fn jump_by_sequence_number_and_by_time() {
+    let records = log_with_notes(5);
+    let s = replay_state(records.clone(), Theme::monochrome()).unwrap();
+    assert_eq!(replay_target(&s, "4"), Ok(3));
+    assert!(
+        replay_target(&s, "40")
+            .unwrap_err()
+            .contains("no record #40")
+    );
+    // The exact time of record #3: the last record at or before it.
+    let t = records[2].at.to_rfc3339();
+    let i = replay_target(&s, &t).unwrap();
+    assert!(records[i].at <= records[2].at && i >= 2);
+    assert!(replay_target(&s, "nonsense").is_err());
+}
+
+#[test]
+fn play_advances_at_the_chosen_speed_and_stops_at_the_end() {
+    let records = log_with_notes(8);
+    let n = records.len();
+    let mut s = replay_state(records, Theme::monochrome()).unwrap();
+    update(&mut s, AppEvent::Key(KeyCode::Char(' ').into()));
+    assert!(s.replay.as_ref().unwrap().playing);
+    // Default speed 2 records a second; a tick is 200 ms: 5 ticks = 2 records.
+    for _ in 0..5 {
+        update(&mut s, AppEvent::Tick);
+    }
+    assert_eq!(s.replay.as_ref().unwrap().at, 2);
+    for _ in 0..200 {
+        update(&mut s, AppEvent::Tick);
+    }
+    let c = s.replay.as_ref().unwrap();
+    assert_eq!(c.at, n - 1);
+    assert!(!c.playing, "play stops at the last record");
+    // Back to the start.
+    replay_seek(&mut s, 0);
+    assert_eq!(s.replay.as_ref().unwrap().at, 0);
+}
+
+#[test]
+fn no_color_means_no_colour_and_the_words_are_there_anyway() {
+    let inc = tui_common::drill();
+    let plain = oddsboard::tui::AppState::new(Mode::Watch, inc.clone(), Theme { color: false });
+    let backend = draw(&plain, 140, 45);
+    let buf = backend.buffer();
+    for cell in buf.content() {
+        assert_eq!(cell.fg, Color::Reset, "a coloured cell with NO_COLOR");
+        assert_eq!(cell.bg, Color::Reset, "a coloured cell with NO_COLOR");
+    }
+    let coloured = oddsboard::tui::AppState::new(Mode::Watch, inc, Theme { color: true });
+    let text_plain = format!("{}", draw(&plain, 140, 45));
+    let text_coloured = format!("{}", draw(&coloured, 140, 45));
+    assert_eq!(
+        text_plain, text_coloured,
+        "colour adds nothing the text lacks"
+    );
+    assert!(text_plain.contains("≡ hedge") && text_plain.contains("LIFE SAFETY"));
+}
