@@ -219,3 +219,123 @@ fn regex_free_mask_times(s: &str) -> String {
     }
     out
 }
+
+fn advice_note(
+    level: oddsboard::advise::NoteLevel,
+    text: &str,
+    unit: Option<&str>,
+) -> oddsboard::advise::Note {
+    oddsboard::advise::Note {
+        level,
+        text: text.into(),
+        task: Some("T1".into()),
+        unit: unit.map(str::to_string),
+    }
+}
+
+#[test]
+fn advice_notes_after_the_contextual_notes() {
+    use oddsboard::advise::NoteLevel;
+    let mut s = state(Mode::Watch, drill());
+    let generation = s.advice_on().unwrap();
+    update(
+        &mut s,
+        AppEvent::AdviceReady {
+            generation,
+            result: Ok(vec![
+                advice_note(
+                    NoteLevel::Urgent,
+                    "Single point of failure: losing E1 (engine on T1) drops T1 below the \
+                     secure level even after re-planning. Stage a backup that can take its place.",
+                    Some("E1"),
+                ),
+                advice_note(
+                    NoteLevel::Warning,
+                    "T1 (life safety) cannot absorb the loss of its most important unit \
+                     without leaving its secure level.",
+                    None,
+                ),
+            ]),
+        },
+    );
+    let screen = format!("{:?}", draw(&s, 140, 45));
+    assert!(screen.contains("» advice, urgent: Single point of failure"));
+    assert!(!screen.contains("advice: computing"));
+    assert_snapshot!(draw(&s, 140, 45));
+}
+
+#[test]
+fn advice_computing_is_shown_until_it_arrives() {
+    let mut s = state(Mode::Watch, drill());
+    s.advice_on();
+    let screen = format!("{:?}", draw(&s, 140, 45));
+    assert!(screen.contains("advice: computing…"));
+}
+
+#[test]
+fn stale_advice_is_dropped() {
+    use oddsboard::advise::NoteLevel;
+    use oddsboard::tui::app::AdviceStatus;
+    let mut s = state(Mode::Command, drill());
+    let old = s.advice_on().unwrap();
+    // The incident changes: a new advice generation, asked for after the
+    // re-plan.
+    let effects = s.incident_changed();
+    assert!(matches!(
+        effects.as_slice(),
+        [oddsboard::tui::Effect::Replan { .. }, oddsboard::tui::Effect::Advise { generation }]
+            if *generation == old + 1
+    ));
+    let note = advice_note(NoteLevel::Urgent, "for the old state", None);
+    update(
+        &mut s,
+        AppEvent::AdviceReady {
+            generation: old,
+            result: Ok(vec![note.clone()]),
+        },
+    );
+    assert!(s.advice.is_empty());
+    assert_eq!(s.advice_status, AdviceStatus::Computing);
+    // The proposal's generation bump (a rejection) does not touch advice.
+    s.generation += 5;
+    update(
+        &mut s,
+        AppEvent::AdviceReady {
+            generation: old + 1,
+            result: Ok(vec![note.clone()]),
+        },
+    );
+    assert_eq!(s.advice, vec![note]);
+    assert_eq!(s.advice_status, AdviceStatus::Ready);
+}
+
+#[test]
+fn no_advice_in_replay() {
+    let records = {
+        let b = tui_common::Bench::new(drill());
+        b.records()
+    };
+    let mut s =
+        oddsboard::tui::app::replay_state(records, oddsboard::tui::Theme { color: false }).unwrap();
+    assert_eq!(s.advice_on(), None);
+    assert!(s.incident_changed().is_empty());
+}
+
+#[test]
+fn real_advice_on_the_drill_reaches_the_panel() {
+    // The advice module itself (not a stand-in) through the dashboard's
+    // advisor and event path.
+    use oddsboard::tui::planner::{Advisor, NotesAdvisor};
+    let mut s = state(Mode::Watch, drill());
+    let generation = s.advice_on().unwrap();
+    let cancel = std::sync::atomic::AtomicBool::new(false);
+    let result = NotesAdvisor::default().advise(&s.incident, &cancel);
+    let notes = result.clone().expect("advice on the drill");
+    update(&mut s, AppEvent::AdviceReady { generation, result });
+    let shown = oddsboard::tui::panel_notes::advice_lines(&s);
+    assert_eq!(shown.len(), notes.len());
+    for (line, note) in shown.iter().zip(&notes) {
+        assert!(line.1.starts_with("» advice, "));
+        assert!(line.1.ends_with(&note.text));
+    }
+}

@@ -10,7 +10,7 @@ use crate::log::{LogWriter, read_log};
 use crate::model::load_incident_file;
 use crate::tui::app::{AppEvent, AppState, Mode, update};
 use crate::tui::launch::{Launch, run as launch};
-use crate::tui::planner::SolverPlanner;
+use crate::tui::planner::{NotesAdvisor, SolverPlanner};
 use crate::tui::theme::Theme;
 use anyhow::Context;
 use std::path::{Path, PathBuf};
@@ -46,6 +46,7 @@ pub fn state_from_records(
         let _ = update(&mut state, AppEvent::RecordAppended(r.clone()));
     }
     state.generation = 0;
+    state.advice_generation = 0;
     // A resumed dashboard does not log again the proposal already logged.
     state.last_written_proposal = state.last_proposed.as_ref().map(|(_, m)| m.clone());
     Ok(state)
@@ -108,6 +109,7 @@ pub fn run(args: Args) -> CliResult {
         state,
         Launch {
             planner: Some(Arc::new(planner)),
+            advisor: Some(Arc::new(NotesAdvisor::default())),
             log: Some(Box::new(writer)),
             follow: Some((log_path, contents.end_offset)),
         },

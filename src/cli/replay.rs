@@ -33,6 +33,9 @@ pub fn run(args: Args) -> CliResult {
         state,
         Launch {
             planner: None,
+            // Advice is not computed in a replay: stepping would restart
+            // a second-long computation on every record.
+            advisor: None,
             log: None,
             follow: None,
         },

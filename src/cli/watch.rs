@@ -6,8 +6,10 @@ use super::dash::state_from_records;
 use crate::log::read_log;
 use crate::tui::app::Mode;
 use crate::tui::launch::{Launch, run as launch};
+use crate::tui::planner::NotesAdvisor;
 use crate::tui::theme::Theme;
 use std::path::PathBuf;
+use std::sync::Arc;
 
 #[derive(Debug, clap::Args)]
 pub struct Args {
@@ -25,6 +27,8 @@ pub fn run(args: Args) -> CliResult {
         state,
         Launch {
             planner: None,
+            // Read-only advice: computed in memory, nothing written.
+            advisor: Some(Arc::new(NotesAdvisor::default())),
             log: None,
             follow: Some((args.log, contents.end_offset)),
         },

@@ -25,7 +25,10 @@ fn unit_options(inc: &Incident, only_available: bool) -> Vec<(String, String)> {
             let ty = &inc.unit_types[u.type_idx].id;
             let at = match u.status {
                 UnitStatus::OutOfService => "out of service".to_string(),
-                UnitStatus::Available => format!("on {}", place_name(inc, inc.placement.get(i))),
+                UnitStatus::Available => match inc.placement.get(i) {
+                    Some(_) => format!("on {}", place_name(inc, inc.placement.get(i))),
+                    None => "in reserve".to_string(),
+                },
             };
             (u.id.clone(), format!("{} · {ty} · {at}", u.id))
         })

@@ -58,6 +58,19 @@ pub enum PlanStatus {
     Rejected,
 }
 
+/// Where the background advice (fragile units, resource requests) stands.
+#[derive(Debug, Clone, PartialEq)]
+pub enum AdviceStatus {
+    /// No advice in this dashboard (replay, or switched off).
+    Off,
+    /// Being computed for the current incident state.
+    Computing,
+    /// The notes shown are for the current incident state.
+    Ready,
+    /// The advice failed; the message says why.
+    Failed(String),
+}
+
 /// One line of the recent-log panel.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LogLine {
@@ -114,8 +127,15 @@ pub struct AppState {
     pub overlay: Overlay,
     pub flash: Option<Flash>,
     pub lost: Vec<LostUnit>,
-    /// Lines from the advice module, shown in the safety notes when present.
-    pub advice: Vec<String>,
+    /// The most urgent notes of the advice module (fragile units, resource
+    /// requests), shown after the contextual notes. Kept while a newer
+    /// advice is computed, so the panel does not flicker.
+    pub advice: Vec<crate::advise::Note>,
+    pub advice_status: AdviceStatus,
+    /// Bumped on every change of the incident (only then, unlike
+    /// `generation`, which a rejection also bumps); advice of an older
+    /// generation is stale and dropped.
+    pub advice_generation: u64,
     pub theme: Theme,
     pub quit: bool,
     /// Who this dashboard writes as (`by` of its records).
@@ -172,6 +192,12 @@ pub enum AppEvent {
         generation: u64,
         result: Result<PlanResult, String>,
     },
+    /// The advice for `generation` of the incident (see
+    /// `AppState::advice_generation`) is ready.
+    AdviceReady {
+        generation: u64,
+        result: Result<Vec<crate::advise::Note>, String>,
+    },
     /// SIGTERM or SIGHUP: quit and restore the terminal.
     Shutdown,
     /// A record is in the log (ours after the append, or another writer's).
@@ -206,6 +232,11 @@ pub enum Effect {
         events: Vec<Event>,
         undoable: bool,
     },
+    /// Cancel any running advice and start one (after a short pause that
+    /// absorbs a burst of records) for this advice generation.
+    Advise {
+        generation: u64,
+    },
     Quit,
 }
 
@@ -234,6 +265,9 @@ impl AppState {
             flash: None,
             lost: Vec::new(),
             advice: Vec::new(),
+            // Switched on by the runtime when it has an advisor.
+            advice_status: AdviceStatus::Off,
+            advice_generation: 0,
             theme,
             quit: false,
             operator: "commander".into(),
@@ -291,14 +325,39 @@ impl AppState {
         if self.selected >= n {
             self.selected = n.saturating_sub(1);
         }
+        let mut effects = Vec::new();
         if self.mode == Mode::Command {
             self.plan_status = PlanStatus::Starting;
-            vec![Effect::Replan {
+            effects.push(Effect::Replan {
                 generation: self.generation,
-            }]
-        } else {
-            Vec::new()
+            });
         }
+        // After the re-plan, so that the proposal comes first.
+        self.advice_generation += 1;
+        if self.advice_status != AdviceStatus::Off {
+            self.advice_status = AdviceStatus::Computing;
+            effects.push(Effect::Advise {
+                generation: self.advice_generation,
+            });
+        }
+        effects
+    }
+
+    /// Turns the background advice off (replay, or a run without advice).
+    pub fn advice_off(&mut self) {
+        self.advice_status = AdviceStatus::Off;
+        self.advice.clear();
+    }
+
+    /// Turns the background advice on for the current state: the runtime
+    /// starts it with [`Effect::Advise`] of the returned generation. Never
+    /// in a replay.
+    pub fn advice_on(&mut self) -> Option<u64> {
+        if self.mode == Mode::Replay {
+            return None;
+        }
+        self.advice_status = AdviceStatus::Computing;
+        Some(self.advice_generation)
     }
 
     /// Sets the proposal from a placement, or clears it when it changes
@@ -372,6 +431,24 @@ pub fn update(state: &mut AppState, event: AppEvent) -> Vec<Effect> {
                     }
                 }
                 Err(e) => state.plan_status = PlanStatus::Failed(e),
+            }
+            Vec::new()
+        }
+        AppEvent::AdviceReady { generation, result } => {
+            // Advice for an older state of the incident, or arriving after
+            // advice was switched off, is dropped.
+            if generation != state.advice_generation || state.advice_status == AdviceStatus::Off {
+                return Vec::new();
+            }
+            match result {
+                Ok(notes) => {
+                    state.advice = notes;
+                    state.advice_status = AdviceStatus::Ready;
+                }
+                Err(e) => {
+                    state.advice.clear();
+                    state.advice_status = AdviceStatus::Failed(e);
+                }
             }
             Vec::new()
         }

@@ -7,13 +7,15 @@ use std::path::PathBuf;
 use std::time::Duration;
 
 use super::app::AppState;
-use super::planner::SharedPlanner;
+use super::planner::{SharedAdvisor, SharedPlanner};
 use super::runtime::{LogSink, Runtime};
 use super::terminal;
 
 /// What a run needs besides the state.
 pub struct Launch {
     pub planner: Option<SharedPlanner>,
+    /// Background advice for the notes panel; none switches it off.
+    pub advisor: Option<SharedAdvisor>,
     pub log: Option<Box<dyn LogSink>>,
     /// Log to follow from this byte offset (records others append).
     pub follow: Option<(PathBuf, u64)>,
@@ -31,6 +33,7 @@ pub fn run(mut state: AppState, launch: Launch) -> anyhow::Result<()> {
     let result = rt.block_on(async {
         let mut runtime = Runtime::new(launch.planner);
         runtime.log = launch.log;
+        runtime.advisor = launch.advisor;
         runtime.spawn_sources();
         runtime.follow = launch.follow;
         runtime.run(&mut tty, &mut state).await

@@ -1,13 +1,16 @@
 //! Operator safety notes: contextual notes where they matter (SPEC §8) and,
-//! always visible at the bottom, the standing caution. Advice lines (fragile
-//! units, resource requests) appear here when the advice module supplies them.
+//! always visible at the bottom, the standing caution. After the contextual
+//! notes come the most urgent notes of the advice module (single points of
+//! failure, resource requests), computed in the background and marked
+//! "advice" in words, not by colour alone.
 
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::text::Line;
 use ratatui::widgets::{Block, Paragraph, Wrap};
 
-use super::app::AppState;
+use super::app::{AdviceStatus, AppState};
+use crate::advise::NoteLevel;
 use crate::model::Tier;
 use crate::odds::{ForcedZero, Regime};
 
@@ -92,8 +95,33 @@ pub fn contextual(state: &AppState) -> Vec<String> {
             ));
         }
     }
-    notes.extend(state.advice.iter().cloned());
     notes
+}
+
+/// The advice lines shown after the contextual notes: each marked as
+/// advice with its level in words, or one line saying where the advice
+/// stands when there is none to show.
+pub fn advice_lines(state: &AppState) -> Vec<(NoteLevel, String)> {
+    let mut lines: Vec<(NoteLevel, String)> = state
+        .advice
+        .iter()
+        .map(|n| {
+            (
+                n.level,
+                format!("» advice, {}: {}", n.level.as_str(), n.text),
+            )
+        })
+        .collect();
+    let status = match &state.advice_status {
+        AdviceStatus::Off | AdviceStatus::Ready => None,
+        AdviceStatus::Computing if lines.is_empty() => Some("advice: computing…".to_string()),
+        AdviceStatus::Computing => Some("advice: updating…".to_string()),
+        AdviceStatus::Failed(e) => Some(format!("advice: not available ({e})")),
+    };
+    if let Some(s) = status {
+        lines.push((NoteLevel::Info, s));
+    }
+    lines
 }
 
 pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
@@ -116,7 +144,8 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let caution_rows = (caution.chars().count() as u16 / inner.width.max(1) + 1).clamp(2, 5);
     let [notes_area, caution_area] =
         Layout::vertical([Constraint::Fill(1), Constraint::Length(caution_rows)]).areas(inner);
-    let lines: Vec<Line> = if notes.is_empty() {
+    let advice = advice_lines(state);
+    let mut lines: Vec<Line> = if notes.is_empty() {
         vec![Line::styled("No contextual notes.", th.dim())]
     } else {
         notes
@@ -124,6 +153,14 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
             .map(|n| Line::styled(format!("! {n}"), th.warning()))
             .collect()
     };
+    lines.extend(advice.into_iter().map(|(level, text)| {
+        let style = if text.starts_with('»') && level != NoteLevel::Info {
+            th.warning()
+        } else {
+            th.dim()
+        };
+        Line::styled(text, style)
+    }));
     frame.render_widget(Paragraph::new(lines).wrap(Wrap { trim: true }), notes_area);
     frame.render_widget(
         Paragraph::new(Line::styled(caution, th.dim())).wrap(Wrap { trim: true }),

@@ -1,6 +1,7 @@
 //! The background re-plan as the dashboard sees it: a [`Planner`] runs on a
 //! blocking thread, reports each better placement, and stops the moment its
-//! cancel flag is raised (the state changed) or its budget runs out.
+//! cancel flag is raised (the state changed) or its budget runs out. The
+//! background advice ([`Advisor`]) runs the same way.
 
 use std::sync::Arc;
 use std::sync::atomic::AtomicBool;
@@ -60,5 +61,38 @@ impl Planner for SolverPlanner {
             proven_optimal: report.proven_optimal,
             elapsed: report.elapsed,
         })
+    }
+}
+
+/// Something that gives the most urgent advice notes for an incident.
+pub trait Advisor: Send + Sync + 'static {
+    /// The notes, most urgent first. Must return soon after `cancel` is
+    /// raised.
+    fn advise(
+        &self,
+        incident: &Incident,
+        cancel: &AtomicBool,
+    ) -> Result<Vec<crate::advise::Note>, String>;
+}
+
+/// A shared advisor.
+pub type SharedAdvisor = Arc<dyn Advisor>;
+
+/// The project's advice module: [`crate::advise::top_notes`].
+#[derive(Debug, Clone, Default)]
+pub struct NotesAdvisor {
+    pub options: crate::advise::AdviseOptions,
+    /// Notes kept (the panel shows what fits). Default 0 means 5.
+    pub limit: usize,
+}
+
+impl Advisor for NotesAdvisor {
+    fn advise(
+        &self,
+        incident: &Incident,
+        cancel: &AtomicBool,
+    ) -> Result<Vec<crate::advise::Note>, String> {
+        let limit = if self.limit == 0 { 5 } else { self.limit };
+        crate::advise::top_notes(incident, &self.options, cancel, limit).map_err(|e| e.to_string())
     }
 }

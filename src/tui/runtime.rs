@@ -15,11 +15,16 @@ use ratatui::crossterm::event::{Event as TermEvent, EventStream};
 use tokio::sync::mpsc::{UnboundedReceiver, UnboundedSender, unbounded_channel};
 
 use super::app::{AppEvent, AppState, Effect, update};
-use super::planner::SharedPlanner;
+use super::planner::{SharedAdvisor, SharedPlanner};
 use super::view::render;
 
 /// How often a tick arrives (replay play, status clock).
 pub const TICK: Duration = Duration::from_millis(200);
+
+/// Pause before advice starts: records that arrive in a burst restart the
+/// pause, so only the last state of the burst is advised on, and the
+/// re-plan (started at once) gets the cores first.
+pub const ADVICE_DEBOUNCE: Duration = Duration::from_millis(400);
 
 /// Wiring of one dashboard run.
 pub struct Runtime {
@@ -28,6 +33,11 @@ pub struct Runtime {
     planner: Option<SharedPlanner>,
     /// Cancel flag of the re-plan in flight.
     running: Option<Arc<AtomicBool>>,
+    /// The background advice (watch and the commander's dashboard); none
+    /// switches the advice off.
+    pub advisor: Option<SharedAdvisor>,
+    /// Cancel flag of the advice in flight (or waiting out its pause).
+    advising: Option<Arc<AtomicBool>>,
     /// Where the operator's actions are written (the commander's dashboard).
     pub log: Option<Box<dyn LogSink>>,
     /// The log followed for records (ours and others'), and the byte offset
@@ -55,6 +65,8 @@ impl Runtime {
             rx,
             planner,
             running: None,
+            advisor: None,
+            advising: None,
             log: None,
             follow: None,
         }
@@ -69,6 +81,39 @@ impl Runtime {
         if let Some(flag) = self.running.take() {
             flag.store(true, Ordering::Relaxed);
         }
+    }
+
+    fn cancel_advice(&mut self) {
+        if let Some(flag) = self.advising.take() {
+            flag.store(true, Ordering::Relaxed);
+        }
+    }
+
+    /// Cancels the advice in flight and starts one on the state's incident
+    /// after [`ADVICE_DEBOUNCE`], unless cancelled during the pause.
+    fn start_advice(&mut self, state: &AppState, generation: u64) {
+        self.cancel_advice();
+        let Some(advisor) = self.advisor.clone() else {
+            return;
+        };
+        let cancel = Arc::new(AtomicBool::new(false));
+        self.advising = Some(cancel.clone());
+        let incident = state.incident.clone();
+        let tx = self.tx.clone();
+        tokio::task::spawn_blocking(move || {
+            let until = Instant::now() + ADVICE_DEBOUNCE;
+            while Instant::now() < until {
+                if cancel.load(Ordering::Relaxed) {
+                    return;
+                }
+                std::thread::sleep(Duration::from_millis(20));
+            }
+            let result = advisor.advise(&incident, &cancel);
+            if cancel.load(Ordering::Relaxed) {
+                return; // a newer state is on its way
+            }
+            let _ = tx.send(AppEvent::AdviceReady { generation, result });
+        });
     }
 
     /// Cancels the re-plan in flight and starts one on the state's incident.
@@ -111,8 +156,10 @@ impl Runtime {
             match effect {
                 Effect::Quit => {
                     self.cancel_replan();
+                    self.cancel_advice();
                     return true;
                 }
+                Effect::Advise { generation } => self.start_advice(state, generation),
                 Effect::Replan { generation } => self.start_replan(state, generation),
                 Effect::Append { events, undoable } => {
                     for event in events {
@@ -219,6 +266,11 @@ impl Runtime {
         if state.mode == super::app::Mode::Command {
             self.start_replan(state, state.generation);
         }
+        if self.advisor.is_some()
+            && let Some(generation) = state.advice_on()
+        {
+            self.start_advice(state, generation);
+        }
         loop {
             terminal.draw(|f| render(state, f))?;
             let Some(first) = self.rx.recv().await else {
@@ -249,5 +301,6 @@ impl Runtime {
 impl Drop for Runtime {
     fn drop(&mut self) {
         self.cancel_replan();
+        self.cancel_advice();
     }
 }
