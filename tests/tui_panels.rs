@@ -339,3 +339,35 @@ fn real_advice_on_the_drill_reaches_the_panel() {
         assert!(line.1.ends_with(&note.text));
     }
 }
+
+#[test]
+fn read_only_dashboards_do_not_offer_the_accept_keys() {
+    for (mode, expected) in [
+        (Mode::Replay, "Proposed moves (1) · recommended at #9"),
+        (
+            Mode::Watch,
+            "Proposed moves (1) · recommended at #9 · read-only",
+        ),
+        (
+            Mode::Command,
+            "Proposed moves (1) · y accept all · s one · x reject",
+        ),
+    ] {
+        let mut s = state(mode, drill());
+        let mut better = s.incident.placement.clone();
+        let e4 = s.incident.unit_idx("E4").unwrap();
+        better.set(e4, s.incident.task_idx("T3"));
+        s.proposal = Some(oddsboard::tui::board::Proposal::new(&s.incident, better));
+        s.last_proposed = Some((9, Vec::new()));
+        let head = oddsboard::tui::panel_units::lines(&s)[0].to_string();
+        assert_eq!(head, expected, "{mode:?}");
+    }
+}
+
+#[test]
+fn counts_take_the_right_number() {
+    use oddsboard::tui::format::count;
+    assert_eq!(count(1, "move", "moves"), "1 move");
+    assert_eq!(count(0, "move", "moves"), "0 moves");
+    assert_eq!(count(2, "move", "moves"), "2 moves");
+}

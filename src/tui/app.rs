@@ -710,7 +710,10 @@ fn command_key(state: &mut AppState, code: KeyCode) -> Option<Vec<Effect>> {
                 .iter()
                 .map(|m| move_spec(&state.incident, m))
                 .collect();
-            let label = format!("accepted {} moves", moves.len());
+            let label = format!(
+                "accepted {}",
+                super::format::count(moves.len(), "move", "moves")
+            );
             return Some(act(state, label, vec![Event::PlanAccepted { moves }]));
         }
         KeyCode::Char('x') => {

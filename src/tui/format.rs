@@ -144,3 +144,12 @@ mod tests {
         assert_eq!(pad("ab", 4), "ab  ");
     }
 }
+
+/// "1 move", "3 moves": a count with its noun in the right number.
+pub fn count(n: usize, singular: &str, plural: &str) -> String {
+    if n == 1 {
+        format!("{n} {singular}")
+    } else {
+        format!("{n} {plural}")
+    }
+}

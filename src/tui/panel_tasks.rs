@@ -129,8 +129,8 @@ pub fn lines(state: &AppState, width: usize) -> (Vec<Line<'static>>, usize) {
 pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let title = match &state.proposal {
         Some(p) => format!(
-            " Task odds · ground now, ▲▼ with the proposal ({} moves) ",
-            p.moves.len()
+            " Task odds · ground now, ▲▼ with the proposal ({}) ",
+            super::format::count(p.moves.len(), "move", "moves")
         ),
         None => " Task odds · ground now ".to_string(),
     };

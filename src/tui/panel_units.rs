@@ -33,11 +33,16 @@ pub fn lines(state: &AppState) -> Vec<Line<'static>> {
     let inc = &state.incident;
     let mut out = Vec::new();
     if let Some(p) = &state.proposal {
+        // The accept/reject keys exist only on the commander's dashboard;
+        // elsewhere the heading says where the proposal comes from.
+        let keys = match (state.mode, &state.last_proposed) {
+            (super::app::Mode::Command, _) => " · y accept all · s one · x reject".to_string(),
+            (super::app::Mode::Replay, Some((seq, _))) => format!(" · recommended at #{seq}"),
+            (_, Some((seq, _))) => format!(" · recommended at #{seq} · read-only"),
+            (_, None) => " · read-only".to_string(),
+        };
         out.push(Line::styled(
-            format!(
-                "Proposed moves ({}) · y accept all · s one · x reject",
-                p.moves.len()
-            ),
+            format!("Proposed moves ({}){keys}", p.moves.len()),
             th.accent(),
         ));
         let moves: Vec<String> = p
