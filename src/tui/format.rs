@@ -110,6 +110,15 @@ pub fn pad(s: &str, width: usize) -> String {
     format!("{cut}{}", " ".repeat(width - n))
 }
 
+/// "1 move", "3 moves": a count with its noun in the right number.
+pub fn count(n: usize, singular: &str, plural: &str) -> String {
+    if n == 1 {
+        format!("{n} {singular}")
+    } else {
+        format!("{n} {plural}")
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -142,14 +151,5 @@ mod tests {
         assert_eq!(signed_amount(0.25), "+0.25");
         assert_eq!(pad("abcdef", 4), "abc…");
         assert_eq!(pad("ab", 4), "ab  ");
-    }
-}
-
-/// "1 move", "3 moves": a count with its noun in the right number.
-pub fn count(n: usize, singular: &str, plural: &str) -> String {
-    if n == 1 {
-        format!("{n} {singular}")
-    } else {
-        format!("{n} {plural}")
     }
 }
