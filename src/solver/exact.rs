@@ -124,7 +124,7 @@ impl Search<'_, '_> {
                 return false;
             }
         }
-        let ub_key = ObjectiveKey::from_ln_odds(inc, &self.ub);
+        let ub_key = self.ctx.key_of(&self.ub);
         !ub_key.better_than(&best.key)
     }
 
@@ -137,7 +137,7 @@ impl Search<'_, '_> {
         if !self.thresholds_met(&state.ln) {
             return;
         }
-        let key = state.key(self.ctx.inc);
+        let key = state.key(self.ctx);
         let better = match &self.best {
             None => true,
             Some(b) => match self.goal {
