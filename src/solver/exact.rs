@@ -26,7 +26,8 @@ use std::collections::HashMap;
 
 /// What the search optimises.
 pub enum Goal {
-    /// The best key.
+    /// The best key under the context's caps (the stable re-plan lowers
+    /// them to hold tiers at their thresholds).
     Key,
     /// Fewest moves from `ground` among plans whose worst capped ln odds in
     /// each tier is at least the threshold; ties to the better key.

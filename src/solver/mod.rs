@@ -21,9 +21,11 @@
 //! 3. on small incidents (at most [`SolveOptions::exact_max_units`] movable
 //!    units) branch and bound over the units proves the best key
 //!    ([`exact`]);
-//! 4. unless `from_scratch`, the stable re-plan: the fewest moves from the
-//!    ground among plans within the slack of the best (exactly by branch and
-//!    bound when step 3 finished, heuristically otherwise).
+//! 4. unless `from_scratch`, the stable re-plan ([`stable`]): thresholds set
+//!    tier by tier (sequential slack: each tier's best worst odds among the
+//!    plans meeting the thresholds above, less the slack), then the fewest
+//!    moves from the ground among plans meeting them (exactly by branch and
+//!    bound when every search before finished, heuristically otherwise).
 //!
 //! Invariant: the solver never reads the clock except through its budget,
 //! draws random numbers only from generators seeded from the options, and
