@@ -45,6 +45,10 @@ pub struct Args {
     /// Print one JSON document instead of the report.
     #[arg(long)]
     pub json: bool,
+    /// Plan as if this event (log shape, YAML or JSON, e.g.
+    /// '{kind: unit_lost, unit: E4}') had happened; nothing is written.
+    #[arg(long, value_name = "EVENT")]
+    pub what_if: Option<String>,
 }
 
 #[derive(Serialize)]
@@ -96,6 +100,8 @@ struct PlanJson<'a> {
     from_scratch: bool,
     #[serde(skip_serializing_if = "Option::is_none")]
     compare: Option<Vec<CompareRow>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    what_if: Option<super::advise::WhatIfSummary>,
     notes: Vec<String>,
     caution: &'static str,
 }
@@ -250,6 +256,13 @@ fn check_args(args: &Args) -> anyhow::Result<()> {
 pub fn run(args: Args) -> CliResult {
     check_args(&args)?;
     let incident = load_state(&args.file)?;
+    let (incident, what_if) = match &args.what_if {
+        Some(ev) => {
+            let (inc, summary) = super::advise::what_if_state(incident, ev, &args.file)?;
+            (inc, Some(summary))
+        }
+        None => (incident, None),
+    };
     let options = SolveOptions {
         budget: Duration::from_millis(args.budget_ms),
         seed: args.seed,
@@ -286,6 +299,7 @@ pub fn run(args: Args) -> CliResult {
             slack: args.slack,
             from_scratch: args.from_scratch,
             compare,
+            what_if,
             notes,
             caution: SAFETY_CAUTION,
         };
@@ -293,7 +307,9 @@ pub fn run(args: Args) -> CliResult {
         return Ok(());
     }
 
-    let mut out = String::new();
+    let mut out = what_if
+        .as_ref()
+        .map_or_else(String::new, super::advise::what_if_header);
     out.push_str(&format!("{}: recommended placement\n", incident.name));
     let proof = if report.proven_optimal {
         "proven optimal".to_string()

@@ -152,21 +152,7 @@ enum Mode {
 }
 
 fn moves_words(moves: &[Move]) -> String {
-    if moves.is_empty() {
-        return "no moves".into();
-    }
-    moves
-        .iter()
-        .map(|m| {
-            format!(
-                "{} {}→{}",
-                m.unit,
-                m.from.as_deref().unwrap_or("reserve"),
-                m.to.as_deref().unwrap_or("reserve")
-            )
-        })
-        .collect::<Vec<_>>()
-        .join(", ")
+    crate::log::describe_moves(moves)
 }
 
 fn csv_field(s: &str) -> String {

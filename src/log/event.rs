@@ -48,6 +48,32 @@ pub struct Move {
     pub to: Option<String>,
 }
 
+impl std::fmt::Display for Move {
+    /// `E3 T1→reserve`: the one wording of a move in the timeline, the report
+    /// and the replay panel.
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "{} {}→{}",
+            self.unit,
+            self.from.as_deref().unwrap_or("reserve"),
+            self.to.as_deref().unwrap_or("reserve")
+        )
+    }
+}
+
+/// Moves in words, comma-separated; `no moves` for none.
+pub fn describe_moves(moves: &[Move]) -> String {
+    if moves.is_empty() {
+        return "no moves".into();
+    }
+    moves
+        .iter()
+        .map(Move::to_string)
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
 /// A field that must be present but may be null.
 fn required_option<'de, D: Deserializer<'de>>(d: D) -> Result<Option<String>, D::Error> {
     Option::<String>::deserialize(d)
@@ -159,18 +185,7 @@ impl Event {
 
     /// The event in words, for the timeline and the report.
     pub fn describe(&self) -> String {
-        fn place(t: &Option<String>) -> &str {
-            t.as_deref().unwrap_or("reserve")
-        }
-        fn moves(m: &[Move]) -> String {
-            if m.is_empty() {
-                return "no moves".into();
-            }
-            m.iter()
-                .map(|m| format!("{} {}→{}", m.unit, place(&m.from), place(&m.to)))
-                .collect::<Vec<_>>()
-                .join(", ")
-        }
+        let moves = describe_moves;
         fn num(v: f64) -> String {
             format!("{v}")
         }
@@ -229,7 +244,9 @@ impl Event {
             Event::TaskClosed { task, outcome } => format!("{task} closed: {}", outcome.as_str()),
             Event::Pinned { unit, task } => format!("{unit} pinned to {task}"),
             Event::Unpinned { unit } => format!("{unit} unpinned"),
-            Event::Moved { unit, to } => format!("{unit} moved to {}", place(to)),
+            Event::Moved { unit, to } => {
+                format!("{unit} moved to {}", to.as_deref().unwrap_or("reserve"))
+            }
             Event::PlanProposed { moves: m } => format!("plan proposed: {}", moves(m)),
             Event::PlanAccepted { moves: m } => format!("plan accepted: {}", moves(m)),
             Event::PlanRejected {} => "plan rejected".into(),

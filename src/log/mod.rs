@@ -25,7 +25,7 @@ pub mod write;
 
 pub use apply::{ApplyError, apply};
 pub use codec::{Record, decode_line, encode_line};
-pub use event::{Event, FORMAT_VERSION, Move, OutcomeValue, StatusValue};
+pub use event::{Event, FORMAT_VERSION, Move, OutcomeValue, StatusValue, describe_moves};
 pub use read::{LogContents, TornTail, parse_log, read_from, read_log};
 pub use replay::{PendingPlan, Replay, fold};
 pub use write::LogWriter;

@@ -39,17 +39,7 @@ pub fn lines(state: &AppState) -> Vec<Line<'static>> {
     out.push(Line::raw(""));
     match &state.last_proposed {
         Some((seq, moves)) => {
-            let list: Vec<String> = moves
-                .iter()
-                .map(|m| {
-                    format!(
-                        "{} {}→{}",
-                        m.unit,
-                        m.from.as_deref().unwrap_or("reserve"),
-                        m.to.as_deref().unwrap_or("reserve")
-                    )
-                })
-                .collect();
+            let list: Vec<String> = moves.iter().map(|m| m.to_string()).collect();
             out.push(Line::styled(
                 format!("Recommended at #{seq}:"),
                 th.heading(),

@@ -1,0 +1,175 @@
+//! The `advise` command and `plan --what-if`, driven as a user would.
+
+use assert_cmd::Command;
+use predicates::prelude::*;
+use std::io::Write;
+
+/// Invented drill: a rescue short of water (gamble), a cover task with a
+/// surplus, two engine types.
+const DRILL: &str = r#"
+incident: { name: Invented advice drill }
+traits:
+  - { id: water, label: Water delivery, unit: L/min }
+unit_types:
+  - { id: engine, label: pump team, traits: { water: { mean: 1900, sd: 250 } } }
+  - { id: hv, label: high-volume pump, traits: { water: { mean: 3600, sd: 500 } } }
+units:
+  - { id: E1, type: engine }
+  - { id: E2, type: engine }
+  - { id: E3, type: engine }
+tasks:
+  - { id: RESCUE, tier: life, needs: { water: 5200 } }
+  - { id: COVER, tier: property, needs: { water: 1000 } }
+placement: { E1: RESCUE, E2: RESCUE, E3: COVER }
+"#;
+
+fn file_with(text: &str, suffix: &str) -> tempfile::NamedTempFile {
+    let mut f = tempfile::Builder::new()
+        .suffix(suffix)
+        .tempfile()
+        .expect("temp file");
+    f.write_all(text.as_bytes()).expect("write");
+    f
+}
+
+fn oddsboard() -> Command {
+    Command::cargo_bin("oddsboard").expect("binary")
+}
+
+#[test]
+fn advise_text_shows_fragility_requests_notes_and_the_caution() {
+    let f = file_with(DRILL, ".yaml");
+    oddsboard()
+        .args(["advise"])
+        .arg(f.path())
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("Fragility"))
+        .stdout(predicate::str::contains("E1"))
+        .stdout(predicate::str::contains("Resource requests"))
+        .stdout(predicate::str::contains("request 1 × pump team"))
+        .stdout(predicate::str::contains(
+            "RESCUE (life safety) stays below its secure level",
+        ))
+        .stdout(predicate::str::contains("Caution: Decision support only"));
+}
+
+#[test]
+fn advise_json_has_the_documented_fields() {
+    let f = file_with(DRILL, ".yaml");
+    let out = oddsboard()
+        .args(["advise", "--json"])
+        .arg(f.path())
+        .assert()
+        .success()
+        .get_output()
+        .stdout
+        .clone();
+    let v: serde_json::Value = serde_json::from_slice(&out).expect("one JSON document");
+    assert_eq!(v["incident"], "Invented advice drill");
+    assert_eq!(v["fragility"].as_array().map(Vec::len), Some(3));
+    assert!(v["fragility"][0]["after"][0]["odds"].is_number());
+    assert_eq!(v["requests"][0]["tier"], "life");
+    assert_eq!(v["requests"][0]["outcome"]["status"], "found");
+    assert_eq!(
+        v["requests"][0]["outcome"]["sets"][0]["units"][0]["unit_type"],
+        "engine"
+    );
+    assert_eq!(v["notes"][0]["level"], "urgent");
+    assert!(
+        v["caution"]
+            .as_str()
+            .is_some_and(|c| c.contains("Life safety first"))
+    );
+}
+
+#[test]
+fn advise_bad_input_exits_1_naming_the_file() {
+    let f = file_with("incident: { name: x }\ntraits: []\nbogus: 1\n", ".yaml");
+    oddsboard()
+        .args(["advise"])
+        .arg(f.path())
+        .assert()
+        .code(1)
+        .stderr(predicate::str::contains(
+            f.path().file_name().and_then(|n| n.to_str()).unwrap_or("?"),
+        ));
+    oddsboard()
+        .args(["advise", "/nonexistent/drill.yaml"])
+        .assert()
+        .code(1);
+    oddsboard().args(["advise", "--bogus"]).assert().code(2);
+}
+
+#[test]
+fn what_if_shows_the_replan_and_writes_nothing() {
+    let f = file_with(DRILL, ".yaml");
+    let before = std::fs::read(f.path()).expect("read");
+    oddsboard()
+        .args(["plan", "--what-if", "{kind: unit_lost, unit: E1}"])
+        .arg(f.path())
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("What if: E1 lost"))
+        .stdout(predicate::str::contains("recommended placement"));
+    let out = oddsboard()
+        .args([
+            "plan",
+            "--json",
+            "--what-if",
+            r#"{"kind": "need_changed", "task": "COVER", "trait": "water", "need": 2500}"#,
+        ])
+        .arg(f.path())
+        .assert()
+        .success()
+        .get_output()
+        .stdout
+        .clone();
+    let v: serde_json::Value = serde_json::from_slice(&out).expect("JSON");
+    assert_eq!(v["what_if"]["kind"], "need_changed");
+    let cover = v["tasks"]
+        .as_array()
+        .and_then(|t| t.iter().find(|t| t["id"] == "COVER"))
+        .expect("COVER");
+    assert_eq!(cover["traits"][0]["need"], 2500.0);
+    assert_eq!(std::fs::read(f.path()).expect("read"), before);
+}
+
+#[test]
+fn what_if_on_a_log_leaves_the_log_unchanged() {
+    let f = file_with(DRILL, ".yaml");
+    let dir = tempfile::tempdir().expect("dir");
+    let log = dir.path().join("drill.log");
+    oddsboard()
+        .arg("start")
+        .arg(f.path())
+        .arg("--log")
+        .arg(&log)
+        .assert()
+        .success();
+    let before = std::fs::read(&log).expect("read");
+    oddsboard()
+        .args(["plan", "--what-if", "{kind: unit_lost, unit: E3}"])
+        .arg(&log)
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("What if: E3 lost"));
+    assert_eq!(std::fs::read(&log).expect("read"), before);
+}
+
+#[test]
+fn what_if_bad_event_exits_1() {
+    let f = file_with(DRILL, ".yaml");
+    oddsboard()
+        .args(["plan", "--what-if", "{kind: unit_lost, unit: E9}"])
+        .arg(f.path())
+        .assert()
+        .code(1)
+        .stderr(predicate::str::contains("unknown unit `E9`"));
+    oddsboard()
+        .args(["plan", "--what-if", "{kind: exploded}"])
+        .arg(f.path())
+        .assert()
+        .code(1)
+        .stderr(predicate::str::contains("--what-if"));
+}
