@@ -49,7 +49,8 @@ pub struct AdviseOptions {
     /// command). Default 0.01.
     pub slack: f64,
     /// Exact search (with proof) in each re-plan when at most this many
-    /// units can move. Default 16.
+    /// units can move. Default 24 (the sample incidents need the proof: a
+    /// request judged only by insertion can be missed).
     pub exact_max_units: usize,
     /// Largest resource request considered, in units. Default 8.
     pub max_extra_units: usize,
@@ -71,7 +72,7 @@ impl Default for AdviseOptions {
             per_loss_budget: Duration::from_millis(8),
             seed: 0,
             slack: 0.01,
-            exact_max_units: 16,
+            exact_max_units: 24,
             max_extra_units: 8,
             alternatives: 3,
             per_request_budget: Duration::from_millis(20),

@@ -26,7 +26,8 @@ use std::collections::HashMap;
 
 /// What the search optimises.
 pub enum Goal {
-    /// The best key.
+    /// The best key under the context's caps (the stable re-plan lowers
+    /// them to hold tiers at their thresholds).
     Key,
     /// Fewest moves from `ground` among plans whose worst capped ln odds in
     /// each tier is at least the threshold; ties to the better key.
@@ -124,7 +125,7 @@ impl Search<'_, '_> {
                 return false;
             }
         }
-        let ub_key = ObjectiveKey::from_ln_odds(inc, &self.ub);
+        let ub_key = self.ctx.key_of(&self.ub);
         !ub_key.better_than(&best.key)
     }
 
@@ -137,7 +138,7 @@ impl Search<'_, '_> {
         if !self.thresholds_met(&state.ln) {
             return;
         }
-        let key = state.key(self.ctx.inc);
+        let key = state.key(self.ctx);
         let better = match &self.best {
             None => true,
             Some(b) => match self.goal {

@@ -51,6 +51,17 @@ pub fn ln_cap(incident: &Incident, tier: Tier) -> f64 {
     incident.secure.get(tier).ln()
 }
 
+/// The cap of every tier in ln space, indexed by [`Tier::index`]. The key
+/// caps each tier at its secure level; the stable re-plan also ranks plans
+/// with lower caps (a tier held at its threshold, see `super::stable`),
+/// which only ln space can express for odds far in the tail.
+pub type LnCaps = [f64; 3];
+
+/// The incident's own caps: ln of each tier's secure level.
+pub fn ln_caps(incident: &Incident) -> LnCaps {
+    Tier::ALL.map(|tier| ln_cap(incident, tier))
+}
+
 /// A plan's rank: see the module docs.
 #[derive(Debug, Clone)]
 pub struct ObjectiveKey {
@@ -67,6 +78,12 @@ impl ObjectiveKey {
     /// Key from the ln odds of every task (index = task index; entries of
     /// tasks that do not count are ignored).
     pub fn from_ln_odds(incident: &Incident, ln_odds: &[f64]) -> Self {
+        Self::from_ln_odds_capped(incident, ln_odds, &ln_caps(incident))
+    }
+
+    /// Like [`Self::from_ln_odds`] with each tier capped at `caps` instead
+    /// of its secure level.
+    pub fn from_ln_odds_capped(incident: &Incident, ln_odds: &[f64], caps: &LnCaps) -> Self {
         let mut per_tier: [Vec<f64>; 3] = Default::default();
         let mut all = Vec::new();
         let mut worst = [None::<f64>; 3];
@@ -76,7 +93,7 @@ impl ObjectiveKey {
             }
             let ln = ln_odds[t];
             let ti = task.tier.index();
-            per_tier[ti].push(ln.min(ln_cap(incident, task.tier)));
+            per_tier[ti].push(ln.min(caps[ti]));
             all.push(ln);
             worst[ti] = Some(worst[ti].map_or(ln, |w: f64| w.min(ln)));
         }
@@ -189,11 +206,20 @@ pub struct TaskChange {
 /// plan after is better. Exact by separability (module docs), up to the
 /// tolerance. Changes of tasks that do not count are ignored.
 pub fn compare_change(incident: &Incident, changes: &[TaskChange]) -> Ordering {
+    compare_change_capped(incident, &ln_caps(incident), changes)
+}
+
+/// Like [`compare_change`] with each tier capped at `caps`.
+pub fn compare_change_capped(
+    incident: &Incident,
+    caps: &LnCaps,
+    changes: &[TaskChange],
+) -> Ordering {
     let mut before = [0.0f64; 8];
     let mut after = [0.0f64; 8];
     // Per tier, the capped parts.
     for tier in Tier::ALL {
-        let cap = ln_cap(incident, tier);
+        let cap = caps[tier.index()];
         let mut n = 0;
         for c in changes {
             if counts(incident, c.task) && incident.tasks[c.task].tier == tier && n < 8 {

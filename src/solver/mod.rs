@@ -21,9 +21,11 @@
 //! 3. on small incidents (at most [`SolveOptions::exact_max_units`] movable
 //!    units) branch and bound over the units proves the best key
 //!    ([`exact`]);
-//! 4. unless `from_scratch`, the stable re-plan: the fewest moves from the
-//!    ground among plans within the slack of the best (exactly by branch and
-//!    bound when step 3 finished, heuristically otherwise).
+//! 4. unless `from_scratch`, the stable re-plan ([`stable`]): thresholds set
+//!    tier by tier (sequential slack: each tier's best worst odds among the
+//!    plans meeting the thresholds above, less the slack), then the fewest
+//!    moves from the ground among plans meeting them (exactly by branch and
+//!    bound when every search before finished, heuristically otherwise).
 //!
 //! Invariant: the solver never reads the clock except through its budget,
 //! draws random numbers only from generators seeded from the options, and
@@ -315,7 +317,7 @@ pub fn solve(
     for p in &starts {
         let mut s = State::new(&ctx, &ctx.repair(p));
         greedy_fill(&ctx, &mut s);
-        let k = s.key(inc);
+        let k = s.key(&ctx);
         if best.as_ref().is_none_or(|(_, bk)| k.better_than(bk)) {
             best = Some((s, k));
         }
@@ -339,7 +341,7 @@ pub fn solve(
         }
     };
     let key_budget = if stable && !exact {
-        budget.share(0.7)
+        budget.share(0.55)
     } else {
         budget.share(1.0)
     };
@@ -381,45 +383,28 @@ pub fn solve(
         }
     }
 
-    // 4. Stability.
+    // 4. Stability: sequential thresholds, then the fewest moves.
     let mut proven = key_proven;
     let mut chosen = best_state.clone();
     if stable {
-        let ln_keep = (1.0 - options.slack.clamp(0.0, 1.0)).ln();
-        let thresholds = best_key
-            .worst_capped_ln_per_tier()
-            .map(|w| w.map(|w| w + ln_keep));
-        let ground = &inc.placement;
-        let mut heuristic = stable::stable_plan(&ctx, ground, &best_state, &thresholds, &budget);
-        // Recompute from scratch: the result is scored with fresh sums.
-        heuristic = State::new(&ctx, &heuristic.placement());
-        chosen = heuristic;
-        if key_proven {
-            let g: Vec<Option<TaskIdx>> = (0..inc.units.len()).map(|u| ground.get(u)).collect();
-            let moves = moves_between(ground, &chosen.placement()).len();
-            let k = chosen.key(inc);
-            let out = exact::branch_and_bound(
-                &ctx,
-                exact::Goal::FewestMoves {
-                    ground: g,
-                    thresholds,
-                },
-                Some(exact::Incumbent {
-                    state: chosen.clone(),
-                    key: k,
-                    moves,
-                }),
-                &budget,
-                options.exact_node_limit,
-                &mut |_, _| {},
-            );
-            iterations += out.nodes;
-            proven = out.complete;
-            stopped_by_budget |= !out.complete;
-            if let Some(b) = out.best {
-                chosen = b.state;
-            }
-        }
+        let out = stable::stable_replan(
+            &ctx,
+            &inc.placement,
+            &best_state,
+            &best_key,
+            &stable::StableSettings {
+                slack: options.slack,
+                seed: options.seed,
+                exact: key_proven,
+                node_limit: options.exact_node_limit,
+                stale_rounds: options.stale_rounds,
+            },
+            &budget,
+        );
+        iterations += out.iterations;
+        proven = out.proven;
+        stopped_by_budget |= out.stopped_by_budget;
+        chosen = out.state;
     }
 
     let placement = chosen.placement();

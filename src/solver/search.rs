@@ -7,7 +7,9 @@
 // Index loops over the parallel per-unit arrays read clearer than zipped iterators.
 #![allow(clippy::needless_range_loop)]
 
-use super::key::{LN_TOLERANCE, TaskChange, cmp_ln, compare_change, counts, ln_cap};
+use super::key::{
+    LN_TOLERANCE, LnCaps, TaskChange, cmp_ln, compare_change_capped, counts, ln_caps,
+};
 use super::{Budget, ObjectiveKey};
 use crate::model::{Incident, Placement, TaskIdx, UnitIdx, UnitStatus};
 use crate::odds::{TaskTally, tallies};
@@ -15,7 +17,9 @@ use rand::rngs::Xoshiro256PlusPlus;
 use rand::{RngExt, SeedableRng};
 use std::cmp::Ordering;
 
-/// What never changes during one solve: which unit may go where.
+/// What never changes during one search: which unit may go where, and the
+/// caps the key ranks plans with.
+#[derive(Clone)]
 pub struct Ctx<'a> {
     pub inc: &'a Incident,
     /// Tasks each unit may be placed on (empty for out-of-service units).
@@ -31,6 +35,9 @@ pub struct Ctx<'a> {
     /// group: trying one reserve unit of a group stands for all of them.
     pub group: Vec<usize>,
     pub n_groups: usize,
+    /// Each tier's cap in the key: ln of its secure level, or lower when
+    /// the stable re-plan holds a tier at its threshold.
+    pub caps: LnCaps,
 }
 
 impl<'a> Ctx<'a> {
@@ -77,7 +84,21 @@ impl<'a> Ctx<'a> {
             reserve_min: inc.reserve_min,
             n_groups: groups.len(),
             group,
+            caps: ln_caps(inc),
         }
+    }
+
+    /// The same incident ranked with each tier capped at `caps`.
+    pub fn with_caps(&self, caps: LnCaps) -> Self {
+        Ctx {
+            caps,
+            ..self.clone()
+        }
+    }
+
+    /// Key of the ln odds `ln` under this context's caps.
+    pub fn key_of(&self, ln: &[f64]) -> ObjectiveKey {
+        ObjectiveKey::from_ln_odds_capped(self.inc, ln, &self.caps)
     }
 
     /// The placement `start` made feasible: pins applied, units that cannot
@@ -162,8 +183,9 @@ impl State {
         Placement(self.place.clone())
     }
 
-    pub fn key(&self, inc: &Incident) -> ObjectiveKey {
-        ObjectiveKey::from_ln_odds(inc, &self.ln)
+    /// The key under `ctx`'s caps.
+    pub fn key(&self, ctx: &Ctx) -> ObjectiveKey {
+        ctx.key_of(&self.ln)
     }
 
     /// Moves unit `u` to `to`, keeping tallies and odds in step.
@@ -214,12 +236,13 @@ impl State {
     }
 
     /// Tasks that count, worst first in the key's order: tasks below their
-    /// tier's secure level by tier, then the rest by ln odds.
-    pub fn bottlenecks(&self, inc: &Incident) -> Vec<TaskIdx> {
+    /// tier's cap by tier, then the rest by ln odds.
+    pub fn bottlenecks(&self, ctx: &Ctx) -> Vec<TaskIdx> {
+        let inc = ctx.inc;
         let mut v: Vec<TaskIdx> = (0..inc.tasks.len()).filter(|&t| counts(inc, t)).collect();
         let rank = |t: TaskIdx| {
             let tier = inc.tasks[t].tier;
-            if cmp_ln(self.ln[t], ln_cap(inc, tier)) == Ordering::Less {
+            if cmp_ln(self.ln[t], ctx.caps[tier.index()]) == Ordering::Less {
                 (0, tier.index())
             } else {
                 (1, 0)
@@ -254,7 +277,7 @@ struct Scored {
 }
 
 /// Compares the plans after two candidates (Greater: `a` is better).
-fn cmp_candidates(inc: &Incident, state: &State, a: &Scored, b: &Scored) -> Ordering {
+fn cmp_candidates(ctx: &Ctx, state: &State, a: &Scored, b: &Scored) -> Ordering {
     let mut ch: [TaskChange; 4] = [TaskChange {
         task: 0,
         before: 0.0,
@@ -278,7 +301,7 @@ fn cmp_candidates(inc: &Incident, state: &State, a: &Scored, b: &Scored) -> Orde
         };
         n += 1;
     }
-    compare_change(inc, &ch[..n])
+    compare_change_capped(ctx.inc, &ctx.caps, &ch[..n])
 }
 
 /// Options that shape the local search.
@@ -308,7 +331,7 @@ pub fn greedy_fill(ctx: &Ctx, state: &mut State) {
         if state.reserve <= ctx.reserve_min {
             return;
         }
-        let order = state.bottlenecks(inc);
+        let order = state.bottlenecks(ctx);
         let mut done = false;
         for &t in &order {
             if state.tallies[t].count() >= ctx.max_units[t] {
@@ -355,7 +378,7 @@ pub fn greedy_fill(ctx: &Ctx, state: &mut State) {
 pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<Step> {
     let inc = ctx.inc;
     let mut seen = vec![false; ctx.n_groups];
-    let order = state.bottlenecks(inc);
+    let order = state.bottlenecks(ctx);
     let zero = TaskChange {
         task: 0,
         before: 0.0,
@@ -369,7 +392,7 @@ pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<S
     for &f in &order {
         let mut best = current;
         let consider = |state: &State, s: Scored, best: &mut Scored| {
-            if cmp_candidates(inc, state, &s, best) == Ordering::Greater {
+            if cmp_candidates(ctx, state, &s, best) == Ordering::Greater {
                 *best = s;
             }
         };
@@ -548,7 +571,7 @@ pub fn local_search(
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed ^ 0x6f64_6473_626f_6172);
     let mut state = start;
     let mut best = state.clone();
-    let mut best_key = best.key(inc);
+    let mut best_key = best.key(ctx);
     let mut iterations = 0u64;
     let mut stale = 0u64;
     let mut rounds = 0u64;
@@ -570,16 +593,16 @@ pub fn local_search(
             // of the sums it leaves behind is better too. Tiny rounding in
             // the running sums could otherwise make a step and its reverse
             // both look like gains (a cycle).
-            let before = state.key(inc);
+            let before = state.key(ctx);
             let undo = apply_step(inc, &mut state, step);
-            if !state.key(inc).better_than(&before) {
+            if !state.key(ctx).better_than(&before) {
                 apply_step(inc, &mut state, undo);
                 break;
             }
         }
         // Rebuild the sums from scratch now and then so rounding never piles up.
         state = State::new(ctx, &state.placement());
-        let key = state.key(inc);
+        let key = state.key(ctx);
         if key.better_than(&best_key) {
             best = state.clone();
             best_key = key;

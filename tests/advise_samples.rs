@@ -1,0 +1,62 @@
+//! Advice on the bundled (invented) sample incidents: a request shown for a
+//! tier must secure it when the requested units are added and the whole
+//! incident is re-solved from scratch by the exact solver — an independent
+//! check of sufficiency, outside the request search.
+
+use oddsboard::advise::{AdviseOptions, RequestOutcome, advise};
+use oddsboard::model::{Tier, Unit, UnitStatus, load_incident_file};
+use oddsboard::solver::{SolveOptions, solve};
+use std::path::Path;
+use std::sync::atomic::AtomicBool;
+
+#[test]
+fn building_collapse_life_request_is_found_and_sufficient() {
+    let path =
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-incidents/building-collapse.yaml");
+    let incident = load_incident_file(&path).expect("sample loads");
+    let cancel = AtomicBool::new(false);
+    let options = AdviseOptions {
+        absorb: false,
+        ..AdviseOptions::default()
+    };
+    let advice = advise(&incident, &options, &cancel).expect("advice");
+    let life = advice
+        .requests
+        .iter()
+        .find(|r| r.tier == "life")
+        .expect("the life tier is short in this sample");
+    let RequestOutcome::Found { sets, .. } = &life.outcome else {
+        panic!(
+            "a life-safety request should be found, got {:?}",
+            life.outcome
+        );
+    };
+    let set = &sets[0];
+    assert!(set.total_units <= 5, "request of {} units", set.total_units);
+
+    // Add the requested units at their types' default ratings and solve.
+    let mut bigger = incident.clone();
+    for (i, tc) in set.units.iter().enumerate() {
+        let ty = bigger.type_idx(&tc.unit_type).expect("known type");
+        for j in 0..tc.count {
+            let ratings = bigger.unit_types[ty].ratings.clone();
+            bigger.add_unit(Unit {
+                id: format!("REQ-{i}-{j}"),
+                type_idx: ty,
+                ratings,
+                status: UnitStatus::Available,
+            });
+        }
+    }
+    let opts = SolveOptions {
+        from_scratch: true,
+        budget: std::time::Duration::from_secs(20),
+        ..SolveOptions::default()
+    };
+    let report = solve(&bigger, &opts, &cancel, &mut |_| {}).expect("solves");
+    let life_worst = report.key.worst_odds_per_tier()[Tier::Life.index()].expect("life tasks");
+    assert!(
+        life_worst >= bigger.secure.get(Tier::Life) - 1e-9,
+        "with the requested units the best plan's worst life odds are {life_worst}"
+    );
+}
