@@ -96,22 +96,7 @@ fn check_ground(state: &Incident, new: &Placement, changed: &[UnitIdx]) -> Resul
             ));
         }
         let Some(t) = to else { continue };
-        let task = &state.tasks[t];
-        if unit.status == UnitStatus::OutOfService {
-            return refuse(format!(
-                "{} is out of service and cannot be placed",
-                unit.id
-            ));
-        }
-        if !task.is_open() {
-            return refuse(format!("task {} is closed", task.id));
-        }
-        if !task.accepts_type(unit.type_idx) {
-            return refuse(format!(
-                "task {} does not accept unit type {} ({})",
-                task.id, state.unit_types[unit.type_idx].id, unit.id
-            ));
-        }
+        check_may_go(state, u, t, "placed")?;
     }
     let mut dests: Vec<TaskIdx> = changed.iter().filter_map(|&u| new.get(u)).collect();
     dests.sort_unstable();
@@ -169,15 +154,14 @@ fn resolve_moves(
     Ok((new, changed))
 }
 
-fn check_pin(state: &Incident, u: UnitIdx, t: TaskIdx) -> Result<(), ApplyError> {
+/// The unit can go to the task at all: in service, task open, type
+/// accepted. `verb` says what was asked ("placed", "pinned").
+fn check_may_go(state: &Incident, u: UnitIdx, t: TaskIdx, verb: &str) -> Result<(), ApplyError> {
     let unit = &state.units[u];
     let task = &state.tasks[t];
-    if state.pins.get(&u) == Some(&t) {
-        return refuse(format!("{} is already pinned to {}", unit.id, task.id));
-    }
     if unit.status == UnitStatus::OutOfService {
         return refuse(format!(
-            "{} is out of service and cannot be pinned",
+            "{} is out of service and cannot be {verb}",
             unit.id
         ));
     }
@@ -190,6 +174,16 @@ fn check_pin(state: &Incident, u: UnitIdx, t: TaskIdx) -> Result<(), ApplyError>
             task.id, state.unit_types[unit.type_idx].id, unit.id
         ));
     }
+    Ok(())
+}
+
+fn check_pin(state: &Incident, u: UnitIdx, t: TaskIdx) -> Result<(), ApplyError> {
+    let unit = &state.units[u];
+    let task = &state.tasks[t];
+    if state.pins.get(&u) == Some(&t) {
+        return refuse(format!("{} is already pinned to {}", unit.id, task.id));
+    }
+    check_may_go(state, u, t, "pinned")?;
     if let Some(max) = task.max_units {
         let pinned = state
             .pins
