@@ -188,6 +188,20 @@ fn tier_worst(ctx: &Ctx, ln: &[f64], tier: usize) -> Option<f64> {
 
 /// The stable re-plan from `best` (the best plan found, with key
 /// `best_key`): sequential thresholds, then the fewest moves from `ground`.
+/// Folds an exact search's effort into the re-plan's (nodes, proof, budget)
+/// and returns the plan it found, if any.
+fn absorb(
+    out: exact::ExactOutcome,
+    iterations: &mut u64,
+    proven: &mut bool,
+    stopped_by_budget: &mut bool,
+) -> Option<State> {
+    *iterations += out.nodes;
+    *proven &= out.complete;
+    *stopped_by_budget |= !out.complete;
+    out.best.map(|x| x.state)
+}
+
 pub fn stable_replan(
     ctx: &Ctx,
     ground: &Placement,
@@ -259,11 +273,8 @@ pub fn stable_replan(
                     settings.node_limit,
                     &mut |_, _| {},
                 );
-                iterations += out.nodes;
-                proven &= out.complete;
-                stopped_by_budget |= !out.complete;
-                if let Some(x) = out.best {
-                    leader = x.state;
+                if let Some(x) = absorb(out, &mut iterations, &mut proven, &mut stopped_by_budget) {
+                    leader = x;
                 }
             } else {
                 proven = false;
@@ -300,11 +311,8 @@ pub fn stable_replan(
             settings.node_limit,
             &mut |_, _| {},
         );
-        iterations += out.nodes;
-        proven &= out.complete;
-        stopped_by_budget |= !out.complete;
-        if let Some(x) = out.best {
-            chosen = x.state;
+        if let Some(x) = absorb(out, &mut iterations, &mut proven, &mut stopped_by_budget) {
+            chosen = x;
         }
     } else {
         proven = false;
