@@ -1,51 +1,15 @@
-//! oddsboard: risk-adaptive placement of response units during an emergency
-//! incident.
+//! The `oddsboard` binary crate: the command line ([`cli`]) and the terminal
+//! dashboard ([`tui`]), a thin shell over [`oddsboard_core`], which holds the
+//! model, the odds, the solver, the log, the reports and the advice.
 //!
-//! An incident commander places units (engines, tenders, rescue teams…) on
-//! tasks that each need minimum amounts of some capabilities. Each unit's
-//! capability is uncertain (a mean and a spread); oddsboard computes each
-//! task's odds of having all its needs met and recommends the placement that
-//! makes the worst task's odds as high as possible, tier by tier.
-//!
-//! Main modules:
-//! * [`model`]: the incident (traits, unit types, units, tasks, placement,
-//!   pins), loaded and validated from YAML with located errors.
-//! * [`odds`]: the probability model: ln Φ, per-task tallies, task odds and
-//!   regime (hedge or gamble).
-//! * [`solver`]: the objective key, exact and anytime searches, baselines.
-//! * [`log`]: the append-only incident log: events, records, replay.
-//! * [`report`]: timeline and after-action report.
-//! * [`advise`]: fragility, resource requests, what-if.
-//! * [`cli`] and [`tui`]: the command line and the terminal dashboard; the
-//!   only modules that touch the terminal.
+//! The core's modules are re-exported here under their own names, so
+//! `oddsboard::model` is `oddsboard_core::model`; integration tests and
+//! benchmarks use either path.
 //!
 //! Decision support only: the odds are only as good as the ratings, and the
 //! plan never replaces the incident commander's judgement.
-//!
-//! ```
-//! use oddsboard::model::parse_incident_str;
-//! use oddsboard::odds::evaluate;
-//!
-//! let yaml = r#"
-//! incident: { name: Invented drill }
-//! traits: [ { id: water, unit: L/min } ]
-//! unit_types:
-//!   - { id: engine, traits: { water: { mean: 1900, sd: 250 } } }
-//! units: [ { id: E1, type: engine }, { id: E2, type: engine } ]
-//! tasks: [ { id: T1, tier: life, needs: { water: 3000 } } ]
-//! placement: { E1: T1, E2: T1 }
-//! "#;
-//! let incident = parse_incident_str(yaml, "drill.yaml").unwrap();
-//! let odds = evaluate(&incident, &incident.placement);
-//! // 3800 L/min expected against 3000 needed, sd 250·√2: z ≈ 2.263.
-//! assert!((odds[0].odds() - 0.98817).abs() < 1e-4);
-//! ```
 
-pub mod advise;
+pub use oddsboard_core::{advise, log, model, odds, report, solver};
+
 pub mod cli;
-pub mod log;
-pub mod model;
-pub mod odds;
-pub mod report;
-pub mod solver;
 pub mod tui;
