@@ -65,9 +65,9 @@ fn brier_score_of_a_small_log_matches_the_hand_value() {
     // Brier's two-class form is twice the binary one.
     assert!(md.contains("two-class form: 0.6554"), "{md}");
     // The reliability table: one forecast in each of three bins.
-    assert!(md.contains("| 0.1–0.2 | 1 | 0.159 | 0.000 |"), "{md}");
-    assert!(md.contains("| 0.5–0.6 | 1 | 0.500 | 1.000 |"), "{md}");
-    assert!(md.contains("| 0.8–0.9 | 1 | 0.841 | 0.000 |"), "{md}");
+    assert!(md.contains("| 10–20 % | 1 | 15.9 % | 0 % |"), "{md}");
+    assert!(md.contains("| 50–60 % | 1 | 50.0 % | 100 % |"), "{md}");
+    assert!(md.contains("| 80–90 % | 1 | 84.1 % | 0 % |"), "{md}");
     // The cautions of decision support are there.
     assert!(md.contains("## Cautions"));
     assert!(md.contains("never replaces the incident commander's judgement"));

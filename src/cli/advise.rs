@@ -10,6 +10,7 @@ pub use crate::advise::what_if::WhatIfSummary;
 use crate::advise::what_if::what_if;
 use crate::advise::{Advice, AdviseOptions, RequestOutcome, TierOdds, advise};
 use crate::model::{Incident, Tier};
+use crate::odds::text::pct;
 use crate::odds::view::SAFETY_CAUTION;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
@@ -34,16 +35,6 @@ pub struct Args {
     /// Print one JSON document instead of the report.
     #[arg(long)]
     pub json: bool,
-}
-
-fn pct(p: f64) -> String {
-    if p > 0.0 && p < 0.001 {
-        format!("{p:.1e}")
-    } else if p < 1.0 && p > 0.999 {
-        "99.9%+".to_string()
-    } else {
-        format!("{:.1}%", p * 100.0)
-    }
 }
 
 fn tiers_cell(tiers: &[TierOdds]) -> String {

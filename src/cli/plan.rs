@@ -6,8 +6,9 @@
 
 use super::CliResult;
 use super::input::load_state;
-use super::render::{Columns, footer, format_odds, regime_words, tier_title, wrap};
+use super::render::{Columns, footer, regime_words, tier_title, wrap};
 use crate::model::{Incident, Placement, Tier};
+use crate::odds::text::{pct, pct_detail};
 use crate::odds::view::{SAFETY_CAUTION, TaskView, placement_view, task_views, worst_by_tier};
 use crate::solver::{
     Move, ObjectiveKey, SolveOptions, SolveReport, baselines, moves_between, solve,
@@ -121,15 +122,6 @@ fn move_views(incident: &Incident, moves: &[Move]) -> Vec<MoveView> {
         .collect()
 }
 
-/// Odds shown from a plain probability.
-fn pct(p: f64) -> String {
-    format_odds(
-        p,
-        (p > 0.0).then(|| p.ln()),
-        (p < 1.0).then(|| (-p).ln_1p()),
-    )
-}
-
 /// The worst task's odds, shown from its own ln values (deep tails too).
 fn worst_cell(tasks: &[TaskView]) -> String {
     tasks
@@ -140,7 +132,7 @@ fn worst_cell(tasks: &[TaskView]) -> String {
         })
         .map_or_else(
             || "-".to_string(),
-            |t| format!("{} ({})", format_odds(t.odds, t.ln_odds, t.ln_fail), t.id),
+            |t| format!("{} ({})", pct_detail(t.ln_odds, t.ln_fail), t.id),
         )
 }
 
@@ -361,9 +353,9 @@ pub fn run(args: Args) -> CliResult {
             continue;
         }
         out.push_str(&format!(
-            "  {} (secure at {}%)\n",
+            "  {} (secure at {})\n",
             tier_title(tier),
-            incident.secure.get(tier) * 100.0
+            pct(incident.secure.get(tier))
         ));
         let mut cols = Columns::new(
             &["task", "before", "", "after", "regime", "binding", "units"],
@@ -372,9 +364,9 @@ pub fn run(args: Args) -> CliResult {
         for (b, a) in rows {
             cols.push(vec![
                 a.id.clone(),
-                format_odds(b.odds, b.ln_odds, b.ln_fail),
+                pct_detail(b.ln_odds, b.ln_fail),
                 "→".into(),
-                format_odds(a.odds, a.ln_odds, a.ln_fail),
+                pct_detail(a.ln_odds, a.ln_fail),
                 regime_words(a.regime).to_string(),
                 a.binding_trait.clone().unwrap_or_else(|| "-".into()),
                 a.units.join(" "),

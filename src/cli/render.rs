@@ -1,11 +1,13 @@
 //! Plain-text tables shared by the commands that print task odds (`odds`,
-//! `plan`, `simulate`): formatting of odds, amounts and margins, the task
-//! table grouped by tier, contextual safety notes and the standing caution.
+//! `plan`, `simulate`): amounts and margins, the task table grouped by tier,
+//! contextual safety notes and the standing caution. Odds are written by
+//! [`crate::odds::text`], the one formatter of every text output.
 //!
 //! Everything here takes the serializable views of [`crate::odds::view`], so
 //! the text and the JSON of a command always show the same numbers.
 
 use crate::model::Tier;
+use crate::odds::text::{pct, pct_detail};
 use crate::odds::view::{SAFETY_CAUTION, TaskView, TierWorst};
 use std::fmt::Write as _;
 
@@ -32,39 +34,6 @@ fn signed(text: String) -> String {
     match text.strip_prefix('-') {
         Some(rest) => format!("{MINUS}{rest}"),
         None => text,
-    }
-}
-
-/// A probability for people: a percentage in the middle, the failure chance
-/// when near certain, scientific notation with ln odds when tiny.
-pub fn format_odds(odds: f64, ln_odds: Option<f64>, ln_fail: Option<f64>) -> String {
-    let Some(ln) = ln_odds else {
-        return "0%".to_string();
-    };
-    let Some(ln_fail) = ln_fail else {
-        return "100%".to_string();
-    };
-    let fail = ln_fail.exp();
-    if odds >= 0.001 && fail >= 0.001 {
-        return format!("{:.1}%", odds * 100.0);
-    }
-    if fail < 0.001 {
-        return format!("99.9%+ (fail {})", sci(fail, ln_fail));
-    }
-    if odds > 0.0 && odds.is_normal() {
-        format!("{} (ln {})", sci(odds, ln), signed(format!("{ln:.1}")))
-    } else {
-        // Below the smallest double the ln is the only figure left.
-        sci(odds, ln)
-    }
-}
-
-/// Scientific notation; below the smallest double, `e^ln`.
-fn sci(p: f64, ln: f64) -> String {
-    if p > 0.0 && p.is_normal() {
-        format!("{p:.1e}")
-    } else {
-        format!("e^{}", signed(format!("{ln:.1}")))
     }
 }
 
@@ -214,7 +183,7 @@ pub fn task_table(tasks: &[TaskView], worst: &[TierWorst], opts: TableOptions) -
         let secure = worst.iter().find(|w| w.tier == tier.as_str());
         let _ = write!(out, "{}", tier_title(tier));
         if let Some(w) = secure {
-            let _ = write!(out, " (secure at {}%)", w.secure * 100.0);
+            let _ = write!(out, " (secure at {})", pct(w.secure));
         }
         out.push('\n');
         let mut cols = Columns::new(
@@ -229,7 +198,7 @@ pub fn task_table(tasks: &[TaskView], worst: &[TierWorst], opts: TableOptions) -
             cols.push(vec![
                 t.id.clone(),
                 shorten(&t.label, 28),
-                format_odds(t.odds, t.ln_odds, t.ln_fail),
+                pct_detail(t.ln_odds, t.ln_fail),
                 regime_words(t.regime).to_string(),
                 binding,
                 z,
@@ -256,7 +225,7 @@ pub fn task_table(tasks: &[TaskView], worst: &[TierWorst], opts: TableOptions) -
                             format_amount(tr.mean),
                             format_amount(tr.sd)
                         ),
-                        format_odds(tr.odds, tr.ln_odds, tr.ln_fail),
+                        pct_detail(tr.ln_odds, tr.ln_fail),
                         String::new(),
                         need,
                         format_z(tr.z, tr.margin),
@@ -273,7 +242,7 @@ pub fn task_table(tasks: &[TaskView], worst: &[TierWorst], opts: TableOptions) -
                 "  worst in {}: {} at {}",
                 tier.as_str(),
                 w.task,
-                format_odds(w.odds, w.ln_odds, tasks_ln_fail(tasks, &w.task))
+                pct_detail(w.ln_odds, tasks_ln_fail(tasks, &w.task))
             );
         }
         out.push('\n');
@@ -358,25 +327,6 @@ pub fn footer(tasks: &[TaskView]) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn odds_formats() {
-        assert_eq!(
-            format_odds(0.972, Some(0.972f64.ln()), Some(0.028f64.ln())),
-            "97.2%"
-        );
-        assert_eq!(format_odds(0.0, None, Some(0.0)), "0%");
-        assert_eq!(format_odds(1.0, Some(0.0), None), "100%");
-        assert_eq!(
-            format_odds(1.0, Some(-1e-9), Some(1e-9f64.ln())),
-            "99.9%+ (fail 1.0e-9)"
-        );
-        assert_eq!(format_odds(0.0, Some(-804.6), Some(0.0)), "e^\u{2212}804.6");
-        assert_eq!(
-            format_odds(2e-7, Some(2e-7f64.ln()), Some(-2e-7)),
-            "2.0e-7 (ln \u{2212}15.4)"
-        );
-    }
 
     #[test]
     fn margins_in_the_traits_unit() {

@@ -4,8 +4,9 @@
 
 use super::CliResult;
 use super::input::load_state;
-use super::render::{Columns, format_odds, wrap};
+use super::render::{Columns, wrap};
 use crate::odds::simulate::{SimulationOptions, simulate, simulation_view};
+use crate::odds::text::{pct, pct_detail};
 use crate::odds::view::SAFETY_CAUTION;
 use std::path::PathBuf;
 
@@ -34,10 +35,6 @@ fn parse_confidence(s: &str) -> Result<f64, String> {
     } else {
         Err(format!("must be strictly between 0 and 1, got {s}"))
     }
-}
-
-fn pct(x: f64) -> String {
-    format!("{:.2}%", x * 100.0)
 }
 
 pub fn run(args: Args) -> CliResult {
@@ -72,7 +69,7 @@ pub fn run(args: Args) -> CliResult {
         cols.push(vec![
             t.id.clone(),
             t.tier.to_string(),
-            format_odds(t.model_odds, t.model_ln_odds, t.model_ln_fail),
+            pct_detail(t.model_ln_odds, t.model_ln_fail),
             pct(t.rate),
             format!("{} – {}", pct(t.low), pct(t.high)),
             if t.model_inside {

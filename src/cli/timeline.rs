@@ -5,8 +5,8 @@ use super::CliResult;
 use super::input::read_log_reporting;
 use crate::log::Move;
 use crate::model::{Incident, Placement, Tier};
+use crate::odds::text::pct_or_dash;
 use crate::odds::view::{TaskView, task_view};
-use crate::report::fmt_odds;
 use crate::report::timeline::{ProposalOdds, Row, TierWorst, TimelineWalker};
 use crate::solver::{SolveOptions, solve};
 use serde::Serialize;
@@ -232,7 +232,7 @@ impl Mode {
         match self {
             Mode::Table => writeln!(
                 out,
-                "{:>6}  {:<8}  {:<12}  {:<44}  {:>8} {:>8} {:>8}  proposal (moves; worst life/stab./prop.)",
+                "{:>6}  {:<8}  {:<12}  {:<44}  {:>9} {:>9} {:>9}  proposal (moves; worst life/stab./prop.)",
                 "seq", "time", "by", "event", "life", "stab.", "property"
             ),
             Mode::Csv => writeln!(
@@ -261,9 +261,9 @@ impl Mode {
                         format!(
                             "{}; {}/{}/{}",
                             moves_words(&p.moves),
-                            fmt_odds(p.worst[0]),
-                            fmt_odds(p.worst[1]),
-                            fmt_odds(p.worst[2])
+                            pct_or_dash(p.worst[0]),
+                            pct_or_dash(p.worst[1]),
+                            pct_or_dash(p.worst[2])
                         )
                     })
                     .unwrap_or_default();
@@ -277,14 +277,14 @@ impl Mode {
                 let by: String = row.by.chars().take(12).collect();
                 writeln!(
                     out,
-                    "{:>6}  {:<8}  {:<12}  {:<44}  {:>8} {:>8} {:>8}  {}",
+                    "{:>6}  {:<8}  {:<12}  {:<44}  {:>9} {:>9} {:>9}  {}",
                     row.seq,
                     row.at.format("%H:%M:%S"),
                     by,
                     words,
-                    fmt_odds(row.worst[0]),
-                    fmt_odds(row.worst[1]),
-                    fmt_odds(row.worst[2]),
+                    pct_or_dash(row.worst[0]),
+                    pct_or_dash(row.worst[1]),
+                    pct_or_dash(row.worst[2]),
                     proposal
                 )
             }

@@ -1,34 +1,5 @@
-//! Number formatting shared by the panels: odds that stay readable from
-//! 1e−40 to 0.99999, amounts in their trait's own unit, bars of eighths.
-
-/// Odds from their natural log: three decimals in the usual range, four near
-/// certainty, `>0.9999` above that, and a power of ten for tiny odds (worked
-/// from ln so that 1e−300 and below still print).
-pub fn odds_from_ln(ln: f64) -> String {
-    if ln.is_nan() {
-        return "?".into();
-    }
-    if ln == f64::NEG_INFINITY {
-        return "0".into();
-    }
-    let p = ln.exp();
-    if p >= 0.99995 {
-        ">0.9999".into()
-    } else if p >= 0.999 {
-        format!("{p:.4}")
-    } else if p >= 0.001 {
-        format!("{p:.3}")
-    } else {
-        let log10 = ln / std::f64::consts::LN_10;
-        let mut exp = log10.floor();
-        let mut mant = 10f64.powf(log10 - exp);
-        if mant >= 9.95 {
-            mant /= 10.0;
-            exp += 1.0;
-        }
-        format!("{mant:.1}e{exp}")
-    }
-}
+//! Number formatting shared by the panels: amounts in their trait's own
+//! unit, bars of eighths. Odds are written by `odds::text`, as everywhere.
 
 /// An amount with a sensible number of digits.
 pub fn amount(x: f64) -> String {
@@ -122,18 +93,6 @@ pub fn count(n: usize, singular: &str, plural: &str) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn odds_cover_the_whole_range() {
-        assert_eq!(odds_from_ln(f64::NEG_INFINITY), "0");
-        assert_eq!(odds_from_ln(0.5f64.ln()), "0.500");
-        assert_eq!(odds_from_ln(0.9994f64.ln()), "0.9994");
-        assert_eq!(odds_from_ln(0.99999f64.ln()), ">0.9999");
-        assert_eq!(odds_from_ln(1e-30f64.ln()), "1.0e-30");
-        assert_eq!(odds_from_ln(2.5e-7f64.ln()), "2.5e-7");
-        // Far below f64's range: ln p = −1000 is p ≈ 5.1e−435.
-        assert_eq!(odds_from_ln(-1000.0), "5.1e-435");
-    }
 
     #[test]
     fn bars_fill_in_eighths() {

@@ -7,7 +7,8 @@ use ratatui::text::{Line, Span};
 use ratatui::widgets::{Block, Paragraph, Sparkline};
 
 use super::app::AppState;
-use super::format::{fit, odds_from_ln};
+use super::format::fit;
+use crate::odds::text::pct_ln;
 
 /// Sparkline heights: the worst odds in percent (0–100), last `width` points.
 pub fn spark_points(history: &[f64], width: usize) -> Vec<u64> {
@@ -22,8 +23,8 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let th = &state.theme;
     let worst = state.worst_history.last().copied().unwrap_or(1.0);
     let block = Block::bordered().title(format!(
-        " Log · worst odds now {} (scale 0–1) ",
-        odds_from_ln(worst.ln())
+        " Log · worst odds now {} (scale 0–100 %) ",
+        pct_ln(worst.ln())
     ));
     let inner = block.inner(area);
     frame.render_widget(block, area);

@@ -14,7 +14,8 @@ use ratatui::widgets::{Block, Paragraph};
 
 use super::app::AppState;
 use super::board::tier_heading;
-use super::format::{amount, odds_from_ln, signed_amount, z_value};
+use super::format::{amount, signed_amount, z_value};
+use crate::odds::text::{Detail, odds_text, pct_ln};
 use crate::odds::{ForcedZero, Regime, TraitOdds};
 
 const SOLID: [char; 9] = [' ', '▁', '▂', '▃', '▄', '▅', '▆', '▇', '█'];
@@ -132,13 +133,13 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
         amount(b.sd),
         amount(b.need),
         z_value(b.z),
-        odds_from_ln(b.ln_odds)
+        odds_text(b.ln_odds, b.ln_fail, Detail::Full)
     )));
     let others: Vec<String> = o
         .traits
         .iter()
         .filter(|x| x.trait_idx != b.trait_idx)
-        .map(|x| format!("{} {}", inc.traits[x.trait_idx].id, odds_from_ln(x.ln_odds)))
+        .map(|x| format!("{} {}", inc.traits[x.trait_idx].id, pct_ln(x.ln_odds)))
         .collect();
     if !others.is_empty() {
         out.push(Line::styled(
@@ -192,7 +193,7 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
     out.push(Line::styled(
         format!(
             "solid: capability at or above the need = odds {}; light: below",
-            odds_from_ln(b.ln_odds)
+            pct_ln(b.ln_odds)
         ),
         th.dim(),
     ));

@@ -8,7 +8,7 @@ use ratatui::text::Line;
 use ratatui::widgets::{Block, Paragraph, Wrap};
 
 use super::app::AppState;
-use super::format::odds_from_ln;
+use crate::odds::text::pct_ln;
 
 pub fn lines(state: &AppState) -> Vec<Line<'static>> {
     let th = &state.theme;
@@ -63,7 +63,7 @@ pub fn lines(state: &AppState) -> Vec<Line<'static>> {
         for (task, outcome, p) in &state.closed {
             out.push(Line::raw(format!(
                 "  {task}: {outcome} · odds were {}",
-                odds_from_ln(p.ln())
+                pct_ln(p.ln())
             )));
         }
     }

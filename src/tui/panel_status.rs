@@ -8,7 +8,8 @@ use ratatui::widgets::Paragraph;
 
 use super::app::{AppState, Mode, PlanStatus};
 use super::board::worst_open;
-use super::format::{fit, odds_from_ln};
+use super::format::fit;
+use crate::odds::text::pct_ln;
 
 /// The main keys per mode; `?` lists all.
 pub fn key_hint(mode: Mode) -> &'static str {
@@ -24,9 +25,10 @@ pub fn key_hint(mode: Mode) -> &'static str {
 /// What the re-plan is doing, in words.
 pub fn plan_words(state: &AppState) -> String {
     let worst = |state: &AppState| {
-        state.proposal.as_ref().and_then(|p| {
-            worst_open(&state.incident, &p.odds).map(|t| odds_from_ln(p.odds[t].ln_odds))
-        })
+        state
+            .proposal
+            .as_ref()
+            .and_then(|p| worst_open(&state.incident, &p.odds).map(|t| pct_ln(p.odds[t].ln_odds)))
     };
     match &state.plan_status {
         PlanStatus::Off => String::new(),
@@ -72,7 +74,7 @@ pub fn render_header(state: &AppState, frame: &mut Frame, area: Rect) {
             format!(
                 "worst task {} {} ({regime})",
                 inc.tasks[t].id,
-                odds_from_ln(o.ln_odds)
+                pct_ln(o.ln_odds)
             )
         }
         None => "no open task".into(),

@@ -10,7 +10,8 @@ use ratatui::widgets::{Block, Paragraph};
 
 use super::app::AppState;
 use super::board::{regime_mark, tier_heading};
-use super::format::{bar, fit, odds_from_ln, pad, signed_amount};
+use super::format::{bar, fit, pad, signed_amount};
+use crate::odds::text::{pct, pct_ln};
 use crate::odds::{ForcedZero, Regime};
 
 /// Lines of the board and the line of the selected task (for scrolling).
@@ -28,7 +29,7 @@ pub fn lines(state: &AppState, width: usize) -> (Vec<Line<'static>>, usize) {
         .unwrap_or(4);
     let id_w = longest.clamp(4, if width < 64 { 12 } else { 18 }) + 1;
     // marker, id, odds, space after the bar, regime, units, proposal change
-    let base = 2 + id_w + 8 + 1 + 9 + 5 + 8;
+    let base = 2 + id_w + 10 + 1 + 9 + 5 + 10;
     let rest = width.saturating_sub(base);
     let bar_w = if rest >= 32 { 10 } else { 6 };
     let bind_w = rest.saturating_sub(bar_w).clamp(10, 24);
@@ -48,7 +49,7 @@ pub fn lines(state: &AppState, width: usize) -> (Vec<Line<'static>>, usize) {
                 Some(tier) => format!(
                     "{}  · secure at {}",
                     tier_heading(tier),
-                    inc.secure.get(tier)
+                    pct(inc.secure.get(tier))
                 ),
                 None => "CLOSED".to_string(),
             };
@@ -79,7 +80,7 @@ pub fn lines(state: &AppState, width: usize) -> (Vec<Line<'static>>, usize) {
         let secure = inc.secure.get(task.tier);
         let p = o.odds();
         let odds_style = th.for_odds(p, secure);
-        spans.push(Span::styled(pad(&odds_from_ln(o.ln_odds), 8), odds_style));
+        spans.push(Span::styled(pad(&pct_ln(o.ln_odds), 10), odds_style));
         spans.push(Span::styled(bar(p, bar_w), odds_style));
         spans.push(Span::raw(" "));
         let regime = o.regime();
@@ -103,8 +104,8 @@ pub fn lines(state: &AppState, width: usize) -> (Vec<Line<'static>>, usize) {
         spans.push(Span::raw(format!("{:>3}u ", o.units.len())));
         if let Some(prop) = &state.proposal {
             let po = &prop.odds[t];
-            let now = odds_from_ln(o.ln_odds);
-            let then = odds_from_ln(po.ln_odds);
+            let now = pct_ln(o.ln_odds);
+            let then = pct_ln(po.ln_odds);
             if now != then {
                 let (arrow, style) = if po.ln_odds > o.ln_odds {
                     ("▲", th.secure())

@@ -6,6 +6,7 @@
 use super::fragility::{TaskAbsorb, UnitLoss};
 use super::requests::{RequestOutcome, TierRequest};
 use crate::model::{Incident, Tier};
+use crate::odds::text::{pct, pct_ln};
 use crate::odds::{Regime, evaluate_task};
 use crate::solver::SolveReport;
 use serde::Serialize;
@@ -65,14 +66,6 @@ fn request_hint(requests: &[TierRequest], tier: Tier) -> String {
     }
 }
 
-fn pct(p: f64) -> String {
-    if p > 0.0 && p < 0.001 {
-        format!("{p:.1e}")
-    } else {
-        format!("{:.1}%", p * 100.0)
-    }
-}
-
 /// Builds the notes, most urgent first (stable within a level).
 pub fn notes(
     incident: &Incident,
@@ -105,7 +98,7 @@ pub fn notes(
                 format!(
                     "{} (life safety) stays below its secure level ({} < {}) with the best plan: request resources{}.",
                     task.id,
-                    pct(o.odds()),
+                    pct_ln(o.ln_odds),
                     pct(secure),
                     request_hint(requests, Tier::Life)
                 ),

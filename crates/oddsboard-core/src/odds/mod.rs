@@ -13,6 +13,7 @@
 
 pub mod normal;
 pub mod simulate;
+pub mod text;
 pub mod view;
 
 pub use normal::{ln_phi, ln_phi_complement, phi};

@@ -1,10 +1,11 @@
 //! The after-action report: a Markdown document made from a log alone.
 
+use super::CAUTIONS;
 use super::calibration::ReliabilityBin;
 use super::calibration::{brier_score, brier_score_two_class, reliability_table};
 use super::timeline::{ClosedTask, Row, TierWorst, TimelineWalker};
-use super::{CAUTIONS, fmt_odds};
 use crate::log::{Event, LogError, Move, OutcomeValue, Record};
+use crate::odds::text::{pct, pct_or_dash};
 use serde::Serialize;
 use std::fmt::Write as _;
 
@@ -30,7 +31,7 @@ struct ProposalTrack {
 
 fn worst_cells(w: &TierWorst) -> String {
     w.iter()
-        .map(|p| fmt_odds(*p))
+        .map(|p| pct_or_dash(*p))
         .collect::<Vec<_>>()
         .join(" | ")
 }
@@ -407,7 +408,7 @@ pub fn render_markdown(a: &AfterAction) -> String {
                 o.tier,
                 o.seq,
                 o.outcome,
-                fmt_odds(Some(o.predicted))
+                pct(o.predicted)
             );
         }
         let _ = writeln!(out);
@@ -435,8 +436,12 @@ pub fn render_markdown(a: &AfterAction) -> String {
             for b in &a.reliability {
                 let _ = writeln!(
                     out,
-                    "| {:.1}–{:.1} | {} | {:.3} | {:.3} |",
-                    b.low, b.high, b.count, b.mean_forecast, b.observed
+                    "| {:.0}–{:.0} % | {} | {} | {} |",
+                    b.low * 100.0,
+                    b.high * 100.0,
+                    b.count,
+                    pct(b.mean_forecast),
+                    pct(b.observed)
                 );
             }
             let _ = writeln!(out);

@@ -26,15 +26,3 @@ pub const CAUTIONS: [&str; 6] = [
     "Before withdrawing units from a task in progress, confirm disengagement and accountability.",
     "A task below its minimum crew is counted as failing whatever its ratings.",
 ];
-
-/// Odds for tables: three decimals, scientific notation below 0.001, `—`
-/// where there is nothing to show.
-pub fn fmt_odds(p: Option<f64>) -> String {
-    match p {
-        None => "—".into(),
-        Some(p) if !p.is_finite() => "—".into(),
-        Some(p) if p <= 0.0 => "0".into(),
-        Some(p) if p < 0.001 => format!("{p:.1e}"),
-        Some(p) => format!("{p:.3}"),
-    }
-}
