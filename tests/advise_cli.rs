@@ -76,11 +76,10 @@ fn advise_json_has_the_documented_fields() {
         "engine"
     );
     assert_eq!(v["notes"][0]["level"], "urgent");
-    assert!(
-        v["caution"]
-            .as_str()
-            .is_some_and(|c| c.contains("Life safety first"))
-    );
+    assert!(v["cautions"].as_array().is_some_and(|c| {
+        c.iter()
+            .any(|x| x.as_str().is_some_and(|x| x.contains("Life safety first")))
+    }));
 }
 
 #[test]

@@ -5,13 +5,12 @@
 
 use super::CliResult;
 use super::input::load_state;
-use super::render::{Columns, tier_title, wrap};
+use super::render::{Columns, caution_text, tier_title, wrap};
 pub use crate::advise::what_if::WhatIfSummary;
 use crate::advise::what_if::what_if;
 use crate::advise::{Advice, AdviseOptions, RequestOutcome, TierOdds, advise};
 use crate::model::{Incident, Tier};
 use crate::odds::text::pct;
-use crate::odds::view::SAFETY_CAUTION;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
 use std::time::Duration;
@@ -249,7 +248,7 @@ pub fn render(incident: &Incident, advice: &Advice, options: &AdviseOptions) -> 
         out.push('\n');
     }
     let _ = incident;
-    out.push_str(&wrap(&format!("Caution: {SAFETY_CAUTION}"), 78, ""));
+    out.push_str(&caution_text());
     out
 }
 

@@ -30,15 +30,19 @@ const EXIT_CODES: &str = "\
 Exit codes:
   0  success
   1  bad input (an invalid file, log or event; the error names file, line, field)
-  2  usage error (unknown command or flag)
+  2  usage error (unknown command or flag)";
 
-Decision support only: the odds are only as good as the ratings. The plan never
-replaces the incident commander's judgement, the command structure, local
-procedures, codes and standards, or personnel accountability. Life safety first.";
+/// The exit codes and the standing caution, after `--help`.
+fn after_help() -> String {
+    format!(
+        "{EXIT_CODES}\n\n{}",
+        render::wrap(&crate::safety::standing_caution(), 79, "").trim_end()
+    )
+}
 
 /// Risk-adaptive re-tasking of response units during an emergency incident.
 #[derive(Debug, Parser)]
-#[command(name = "oddsboard", version, about, after_help = EXIT_CODES)]
+#[command(name = "oddsboard", version, about, after_help = after_help())]
 pub struct Cli {
     #[command(subcommand)]
     pub command: Command,

@@ -9,7 +9,8 @@ use super::input::load_state;
 use super::render::{Columns, footer, regime_words, tier_title, wrap};
 use crate::model::{Incident, Placement, Tier};
 use crate::odds::text::{pct, pct_detail};
-use crate::odds::view::{SAFETY_CAUTION, TaskView, placement_view, task_views, worst_by_tier};
+use crate::odds::view::{TaskView, placement_view, task_views, worst_by_tier};
+use crate::safety;
 use crate::solver::{
     Move, ObjectiveKey, SolveOptions, SolveReport, baselines, moves_between, solve,
 };
@@ -104,7 +105,7 @@ struct PlanJson<'a> {
     #[serde(skip_serializing_if = "Option::is_none")]
     what_if: Option<super::advise::WhatIfSummary>,
     notes: Vec<String>,
-    caution: &'static str,
+    cautions: &'static [&'static str],
 }
 
 fn task_name(incident: &Incident, t: Option<usize>) -> String {
@@ -218,18 +219,15 @@ fn plan_notes(incident: &Incident, report: &SolveReport, after: &[TaskView]) -> 
         if let Some(from) = m.from
             && incident.tasks[from].is_open()
         {
-            notes.push(format!(
-                "{} would withdraw from {} while it is in progress: confirm disengagement and personnel accountability before moving.",
-                incident.units[m.unit].id, incident.tasks[from].id
+            notes.push(safety::withdrawal(
+                &[&incident.units[m.unit].id],
+                &incident.tasks[from].id,
             ));
         }
     }
     for t in after {
         if t.tier() == Tier::Life && t.regime == Some("gamble") {
-            notes.push(format!(
-                "{} (life safety) stays in the gamble regime even with the best plan: request more resources.",
-                t.id
-            ));
+            notes.push(safety::life_gamble(&t.id, safety::When::WithBestPlan, ""));
         }
     }
     notes
@@ -293,7 +291,7 @@ pub fn run(args: Args) -> CliResult {
             compare,
             what_if,
             notes,
-            caution: SAFETY_CAUTION,
+            cautions: &safety::CAUTIONS,
         };
         println!("{}", serde_json::to_string_pretty(&doc)?);
         return Ok(());

@@ -8,7 +8,8 @@
 
 use crate::model::Tier;
 use crate::odds::text::{pct, pct_detail};
-use crate::odds::view::{SAFETY_CAUTION, TaskView, TierWorst};
+use crate::odds::view::{TaskView, TierWorst};
+use crate::safety;
 use std::fmt::Write as _;
 
 /// What the task table shows.
@@ -264,17 +265,11 @@ pub fn safety_notes(tasks: &[TaskView]) -> Vec<String> {
     let mut notes = Vec::new();
     for t in tasks {
         if t.tier() == Tier::Life && t.regime == Some("gamble") {
-            notes.push(format!(
-                "{} is a life-safety task in the gamble regime: request more resources rather than rely on spread.",
-                t.id
-            ));
+            notes.push(safety::life_gamble(&t.id, safety::When::Now, ""));
         }
         match t.forced_zero {
-            Some("no_units") => notes.push(format!("{} has needs and no units placed.", t.id)),
-            Some("below_minimum") => notes.push(format!(
-                "{} is below its minimum number of units: its odds count as 0.",
-                t.id
-            )),
+            Some("no_units") => notes.push(safety::no_units(&t.id)),
+            Some("below_minimum") => notes.push(safety::below_minimum(&t.id, None)),
             _ => {}
         }
     }
@@ -305,6 +300,11 @@ pub fn wrap(text: &str, width: usize, indent: &str) -> String {
     out
 }
 
+/// The standing caution, wrapped for the foot of a text output.
+pub fn caution_text() -> String {
+    wrap(&format!("Caution: {}", safety::standing_caution()), 78, "")
+}
+
 /// The foot of every text report: notes, the regime legend and the caution.
 pub fn footer(tasks: &[TaskView]) -> String {
     let mut out = String::new();
@@ -320,7 +320,7 @@ pub fn footer(tasks: &[TaskView]) -> String {
         out.push_str(&wrap(line, 78, ""));
     }
     out.push('\n');
-    out.push_str(&wrap(&format!("Caution: {SAFETY_CAUTION}"), 78, ""));
+    out.push_str(&caution_text());
     out
 }
 

@@ -4,10 +4,9 @@
 
 use super::CliResult;
 use super::input::load_state;
-use super::render::{Columns, wrap};
+use super::render::{Columns, caution_text, wrap};
 use crate::odds::simulate::{SimulationOptions, simulate, simulation_view};
 use crate::odds::text::{pct, pct_detail};
-use crate::odds::view::SAFETY_CAUTION;
 use std::path::PathBuf;
 
 #[derive(Debug, clap::Args)]
@@ -119,7 +118,7 @@ pub fn run(args: Args) -> CliResult {
         "",
     ));
     out.push('\n');
-    out.push_str(&wrap(&format!("Caution: {SAFETY_CAUTION}"), 78, ""));
+    out.push_str(&caution_text());
     print!("{out}");
     Ok(())
 }

@@ -12,31 +12,19 @@ use ratatui::widgets::{Block, Paragraph, Wrap};
 use super::app::{AdviceStatus, AppState};
 use crate::advise::NoteLevel;
 use crate::model::Tier;
+use crate::odds::text::{pct, pct_ln};
 use crate::odds::{ForcedZero, Regime};
-
-/// The caution that is always on screen, in the short form used on narrow
-/// terminals.
-pub const STANDING_CAUTION_SHORT: &str = "Decision support only: the odds are only as good as the \
-ratings. Command, procedures and accountability first. Life safety first.";
-
-/// The caution that is always on screen.
-pub const STANDING_CAUTION: &str = "Decision support only. The odds are only as good as the ratings \
-and assume the stated independence. The incident's command, local procedures, codes and standards \
-and personnel accountability come first. Life safety first.";
+use crate::safety::{self, When};
 
 /// Contextual notes, most urgent first.
 pub fn contextual(state: &AppState) -> Vec<String> {
     let inc = &state.incident;
     let mut notes = Vec::new();
     for lost in state.lost.iter().rev().take(3) {
-        let from = lost
-            .from_task
-            .as_ref()
-            .map(|t| format!(" from {t}"))
-            .unwrap_or_default();
-        notes.push(format!(
-            "{} lost{from} ({}): confirm its crew is accounted for.",
-            lost.unit, lost.reason
+        notes.push(safety::unit_lost(
+            &lost.unit,
+            lost.from_task.as_deref(),
+            &lost.reason,
         ));
     }
     for o in &state.ground {
@@ -45,10 +33,7 @@ pub fn contextual(state: &AppState) -> Vec<String> {
             continue;
         }
         if task.tier == Tier::Life && o.regime() == Some(Regime::Gamble) {
-            notes.push(format!(
-                "{} is life safety and short on average: request more resources rather than rely on spread.",
-                task.id
-            ));
+            notes.push(safety::life_gamble(&task.id, When::Now, ""));
         }
     }
     if let Some(p) = &state.proposal {
@@ -63,21 +48,19 @@ pub fn contextual(state: &AppState) -> Vec<String> {
             }
         }
         for (t, units) in by_task {
+            let units: Vec<&str> = units.iter().map(String::as_str).collect();
             notes.push(format!(
-                "The proposal withdraws {} from {} while it is in progress: confirm disengagement and accountability before moving.",
-                units.join(", "),
-                inc.tasks[t].id
+                "Proposal: {}",
+                safety::withdrawal(&units, &inc.tasks[t].id)
             ));
         }
     }
     for o in &state.ground {
         let task = &inc.tasks[o.task_idx];
         if task.is_open() && o.forced_zero == Some(ForcedZero::BelowMinimum) {
-            notes.push(format!(
-                "{} has {} of its minimum {} units: it cannot be counted on.",
-                task.id,
-                o.units.len(),
-                task.min_units.unwrap_or_default()
+            notes.push(safety::below_minimum(
+                &task.id,
+                Some((o.units.len(), task.min_units.unwrap_or_default())),
             ));
         }
     }
@@ -89,9 +72,12 @@ pub fn contextual(state: &AppState) -> Vec<String> {
             && o.regime() == Some(Regime::Hedge)
             && o.odds() < secure
         {
-            notes.push(format!(
-                "{} (life safety) is below its secure level {secure}.",
-                task.id
+            notes.push(safety::life_below_secure(
+                &task.id,
+                &pct_ln(o.ln_odds),
+                &pct(secure),
+                When::Now,
+                "",
             ));
         }
     }
@@ -137,9 +123,9 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     frame.render_widget(block, area);
     // The caution keeps its rows whatever the height.
     let caution = if inner.width >= 56 {
-        STANDING_CAUTION
+        safety::CAUTION_SCREEN
     } else {
-        STANDING_CAUTION_SHORT
+        safety::CAUTION_SHORT
     };
     let caution_rows = (caution.chars().count() as u16 / inner.width.max(1) + 1).clamp(2, 5);
     let [notes_area, caution_area] =

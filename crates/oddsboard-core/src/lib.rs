@@ -20,6 +20,7 @@
 //! * [`log`]: the append-only incident log: events, records, replay.
 //! * [`report`]: timeline and after-action report.
 //! * [`advise`]: fragility, resource requests, what-if.
+//! * [`safety`]: the cautions and contextual safety notes, worded once.
 //!
 //! Decision support only: the odds are only as good as the ratings, and the
 //! plan never replaces the incident commander's judgement.
@@ -48,4 +49,5 @@ pub mod log;
 pub mod model;
 pub mod odds;
 pub mod report;
+pub mod safety;
 pub mod solver;

@@ -29,7 +29,6 @@ pub use notes::{Note, NoteLevel};
 pub use requests::{RequestOutcome, RequestSet, TierRequest};
 
 use crate::model::{Incident, Tier};
-use crate::odds::view::SAFETY_CAUTION;
 use crate::solver::{ObjectiveKey, SolveError, SolveOptions, SolveReport, solve};
 use serde::Serialize;
 use std::sync::atomic::AtomicBool;
@@ -163,7 +162,7 @@ pub struct Advice {
     pub requests: Vec<TierRequest>,
     /// Life-safety and other notes, most urgent first.
     pub notes: Vec<Note>,
-    pub caution: &'static str,
+    pub cautions: &'static [&'static str],
 }
 
 /// The baseline plan: the stable re-plan now, nothing lost.
@@ -202,7 +201,7 @@ pub fn advise(
         absorb,
         requests,
         notes,
-        caution: SAFETY_CAUTION,
+        cautions: &crate::safety::CAUTIONS,
     })
 }
 

@@ -8,6 +8,7 @@ use super::requests::{RequestOutcome, TierRequest};
 use crate::model::{Incident, Tier};
 use crate::odds::text::{pct, pct_ln};
 use crate::odds::{Regime, evaluate_task};
+use crate::safety::{self, When};
 use crate::solver::SolveReport;
 use serde::Serialize;
 
@@ -84,10 +85,10 @@ pub fn notes(
         if o.regime() == Some(Regime::Gamble) {
             out.push(note(
                 NoteLevel::Urgent,
-                format!(
-                    "{} is gambling (life safety, short on average even with the best plan): request resources rather than rely on spread{}.",
-                    task.id,
-                    request_hint(requests, Tier::Life)
+                safety::life_gamble(
+                    &task.id,
+                    When::WithBestPlan,
+                    &request_hint(requests, Tier::Life),
                 ),
                 Some(&task.id),
                 None,
@@ -95,12 +96,12 @@ pub fn notes(
         } else if !super::reaches(o.odds(), secure) {
             out.push(note(
                 NoteLevel::Urgent,
-                format!(
-                    "{} (life safety) stays below its secure level ({} < {}) with the best plan: request resources{}.",
-                    task.id,
-                    pct_ln(o.ln_odds),
-                    pct(secure),
-                    request_hint(requests, Tier::Life)
+                safety::life_below_secure(
+                    &task.id,
+                    &pct_ln(o.ln_odds),
+                    &pct(secure),
+                    When::WithBestPlan,
+                    &request_hint(requests, Tier::Life),
                 ),
                 Some(&task.id),
                 None,

@@ -21,7 +21,6 @@
 //! Invariant: pure and repeatable: the generator is seeded from the options
 //! ([`SimulationOptions::seed`]), never from the operating system.
 
-use super::view::SAFETY_CAUTION;
 use super::{evaluate_task, phi};
 use crate::model::{Incident, Need, Placement, TaskIdx};
 use rand::rngs::StdRng;
@@ -330,7 +329,7 @@ pub struct SimulationView {
     pub all_tasks: AllTasksView,
     /// Ids of tasks whose model odds fall outside their interval.
     pub outside: Vec<String>,
-    pub caution: &'static str,
+    pub cautions: &'static [&'static str],
 }
 
 /// Builds the serializable result of a simulation at a confidence level.
@@ -377,7 +376,7 @@ pub fn simulation_view(incident: &Incident, sim: &Simulation, confidence: f64) -
             high,
             model_if_independent: sim.all_model_if_independent,
         },
-        caution: SAFETY_CAUTION,
+        cautions: &crate::safety::CAUTIONS,
     }
 }
 

@@ -118,16 +118,9 @@ pub struct OddsView {
     /// Worst task per tier, highest tier first; tiers without open tasks
     /// are left out.
     pub worst_by_tier: Vec<TierWorst>,
-    /// The standing safety caution.
-    pub caution: &'static str,
+    /// The standing cautions ([`crate::safety::CAUTIONS`]).
+    pub cautions: &'static [&'static str],
 }
-
-/// The standing caution every screen and report carries (SPEC §8).
-pub const SAFETY_CAUTION: &str = "Decision support only. The odds are only as good as the \
-ratings and assume the stated independence (units of different types, and traits, vary \
-independently). They never replace the incident commander's judgement, the command \
-structure, local operating procedures, the applicable codes and standards, or \
-personnel accountability. Life safety first.";
 
 fn finite(x: f64) -> Option<f64> {
     x.is_finite().then_some(x)
@@ -240,7 +233,7 @@ pub fn odds_view(incident: &Incident, placement: &Placement) -> OddsView {
         min_odds: min_ln.exp(),
         min_ln_odds: finite(min_ln),
         tasks,
-        caution: SAFETY_CAUTION,
+        cautions: &crate::safety::CAUTIONS,
     }
 }
 

@@ -1,6 +1,5 @@
 //! The after-action report: a Markdown document made from a log alone.
 
-use super::CAUTIONS;
 use super::calibration::ReliabilityBin;
 use super::calibration::{brier_score, brier_score_two_class, reliability_table};
 use super::timeline::{ClosedTask, Row, TierWorst, TimelineWalker};
@@ -275,7 +274,11 @@ pub fn after_action(records: &[Record], source: &str) -> Result<AfterAction, Log
         scored_tasks: forecasts.len(),
         reliability: reliability_table(&forecasts, 10),
         notes: walker.replay().notes.clone(),
-        cautions: CAUTIONS.to_vec(),
+        cautions: crate::safety::CAUTIONS
+            .iter()
+            .chain(&crate::safety::NOTE_RULES)
+            .copied()
+            .collect(),
     })
 }
 
