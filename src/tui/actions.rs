@@ -357,7 +357,7 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
 }
 
 /// The log's shape of a proposed move.
-pub fn move_spec(inc: &Incident, m: &super::board::ProposedMove) -> MoveSpec {
+pub fn move_spec(inc: &Incident, m: &crate::solver::Move) -> MoveSpec {
     MoveSpec {
         unit: inc.units[m.unit].id.clone(),
         from: m.from.map(|t| inc.tasks[t].id.clone()),

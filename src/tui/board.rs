@@ -5,21 +5,14 @@
 
 use crate::model::{Incident, Placement, TaskIdx, Tier, UnitIdx, UnitStatus};
 use crate::odds::{Regime, TaskOdds, evaluate};
-
-/// One proposed move of a unit, by index into the current incident.
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct ProposedMove {
-    pub unit: UnitIdx,
-    pub from: Option<TaskIdx>,
-    pub to: Option<TaskIdx>,
-}
+use crate::solver::{Move, moves_between};
 
 /// A placement recommended by the re-plan, with its odds.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Proposal {
     pub placement: Placement,
     pub odds: Vec<TaskOdds>,
-    pub moves: Vec<ProposedMove>,
+    pub moves: Vec<Move>,
 }
 
 impl Proposal {
@@ -33,22 +26,6 @@ impl Proposal {
             moves,
         }
     }
-}
-
-/// Units whose position differs, in roster order.
-pub fn moves_between(before: &Placement, after: &Placement) -> Vec<ProposedMove> {
-    before
-        .0
-        .iter()
-        .zip(&after.0)
-        .enumerate()
-        .filter(|(_, (a, b))| a != b)
-        .map(|(u, (a, b))| ProposedMove {
-            unit: u,
-            from: *a,
-            to: *b,
-        })
-        .collect()
 }
 
 /// Open tasks by tier (highest first) in file order, then closed tasks.
