@@ -67,7 +67,7 @@ pub fn run(args: Args) -> CliResult {
     let advice = advise(&incident, &options, &cancel)
         .map_err(|e| anyhow::anyhow!("{}: {e}", args.file.display()))?;
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&advice)?);
+        super::json::print_pretty(&advice)?;
         return Ok(());
     }
     print!("{}", render(&incident, &advice, &options));

@@ -62,7 +62,7 @@ pub fn run(args: Args) -> CliResult {
                     summary: Some(summary),
                     errors: Vec::new(),
                 };
-                println!("{}", serde_json::to_string_pretty(&report)?);
+                super::json::print_pretty(&report)?;
             } else {
                 println!("{summary}");
             }
@@ -75,7 +75,7 @@ pub fn run(args: Args) -> CliResult {
                     summary: None,
                     errors: error_entries(&e, &args.file),
                 };
-                println!("{}", serde_json::to_string_pretty(&report)?);
+                super::json::print_pretty(&report)?;
                 let n = report.errors.len();
                 anyhow::bail!(
                     "{}: {n} problem{} (listed on stdout)",
@@ -97,7 +97,7 @@ fn error_entries(e: &anyhow::Error, file: &Path) -> Vec<ErrorEntry> {
             line: None,
             column: None,
             path: String::new(),
-            message: format!("{e:#}"),
+            message: super::error_text(e),
         }],
     }
 }

@@ -12,6 +12,7 @@ pub mod check;
 pub mod dash;
 pub mod generate;
 pub mod input;
+pub mod json;
 pub mod odds;
 pub mod plan;
 pub mod record;
@@ -92,10 +93,28 @@ pub fn main() -> ExitCode {
     match run(cli.command) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("error: {e:#}");
+            eprintln!("error: {}", error_text(&e));
             ExitCode::from(1)
         }
     }
+}
+
+/// The error and its causes on one line, each said once: the core's errors
+/// already name their cause (`file: cannot read: No such file…`), so a
+/// cause whose text is already there is not repeated.
+pub fn error_text(e: &anyhow::Error) -> String {
+    let mut text = String::new();
+    for cause in e.chain() {
+        let c = cause.to_string();
+        if text.contains(&c) {
+            continue;
+        }
+        if !text.is_empty() {
+            text.push_str(": ");
+        }
+        text.push_str(&c);
+    }
+    text
 }
 
 pub fn run(command: Command) -> CliResult {

@@ -25,7 +25,7 @@ pub fn run(args: Args) -> CliResult {
     let incident = load_state(&args.file)?;
     let view = odds_view(&incident, &incident.placement);
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&view)?);
+        super::json::print_pretty(&view)?;
         return Ok(());
     }
     let placed = view.placement.values().filter(|t| t.is_some()).count();

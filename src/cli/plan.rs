@@ -293,7 +293,7 @@ pub fn run(args: Args) -> CliResult {
             notes,
             cautions: &safety::CAUTIONS,
         };
-        println!("{}", serde_json::to_string_pretty(&doc)?);
+        super::json::print_pretty(&doc)?;
         return Ok(());
     }
 

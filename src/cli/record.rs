@@ -59,7 +59,7 @@ pub fn run(args: Args) -> CliResult {
         let record = writer.append(&by, event)?;
         warn_repair(&writer, &log);
         if args.json {
-            println!("{}", serde_json::to_string(&[recorded(1, &record)])?);
+            super::json::print_rows(&[recorded(1, &record)])?;
         } else {
             println!("recorded seq {}: {}", record.seq, record.event.describe());
         }
@@ -108,7 +108,7 @@ pub fn run(args: Args) -> CliResult {
     }
     warn_repair(&writer, &log);
     if args.json {
-        println!("{}", serde_json::to_string(&outcomes)?);
+        super::json::print_rows(&outcomes)?;
     }
     if refused > 0 {
         anyhow::bail!(

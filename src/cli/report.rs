@@ -19,7 +19,7 @@ pub fn run(args: Args) -> CliResult {
     let name = args.log.display().to_string();
     let data = after_action(&contents.records, &name).map_err(|e| e.in_file(&name))?;
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&data)?);
+        super::json::print_pretty(&data)?;
     } else {
         print!("{}", render_markdown(&data));
     }

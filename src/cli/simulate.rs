@@ -45,7 +45,7 @@ pub fn run(args: Args) -> CliResult {
     let sim = simulate(&incident, &incident.placement, options);
     let view = simulation_view(&incident, &sim, args.confidence);
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&view)?);
+        super::json::print_pretty(&view)?;
         return Ok(());
     }
     let level = format!("{}%", args.confidence * 100.0);

@@ -332,7 +332,7 @@ impl Mode {
                     write!(out, ",")?;
                 }
                 writeln!(out)?;
-                serde_json::to_writer(&mut *out, &v)?;
+                serde_json::to_writer(&mut *out, &super::json::versioned(&v))?;
                 Ok(())
             }
         }

@@ -3,9 +3,13 @@
 //! rest light, so the solid share of the curve is the trait's odds — the
 //! odds made visible. A one-line reading says what the shape means.
 //!
-//! The curve is the normal density of (capability − need's own spread), i.e.
-//! `Normal(mean, sd²)` with `sd` the total sd of SPEC §2, so that the solid
-//! area is exactly `Φ((mean − need)/sd)`.
+//! Two spreads have two names, on screen as in `odds --json`: the
+//! *capability spread* (the units' sd, JSON `sd`) and the *margin spread*
+//! (the sd of capability − need, the need's own sd folded in, JSON
+//! `margin_sd`). The curve is drawn with the margin spread, i.e.
+//! `Normal(mean, margin_sd²)`, so that the solid area is exactly
+//! `Φ((mean − need)/margin_sd)`; the two are the same when the need is
+//! certain.
 
 use ratatui::Frame;
 use ratatui::layout::Rect;
@@ -127,11 +131,20 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
             th.heading(),
         ),
     ]));
+    let need = if b.need_sd > 0.0 {
+        format!(
+            "need {} ± {} · margin spread ± {}",
+            amount(b.need),
+            amount(b.need_sd),
+            amount(b.sd)
+        )
+    } else {
+        format!("need {}", amount(b.need))
+    };
     out.push(Line::raw(format!(
-        "capability {} ± {} · need {} · {} · odds {}",
+        "capability {} ± {} · {need} · {} · odds {}",
         amount(b.mean),
-        amount(b.sd),
-        amount(b.need),
+        amount(b.unit_sd),
         z_value(b.z),
         odds_text(b.ln_odds, b.ln_fail, Detail::Full)
     )));
@@ -192,8 +205,13 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
     }
     out.push(Line::styled(
         format!(
-            "solid: capability at or above the need = odds {}; light: below",
-            pct_ln(b.ln_odds)
+            "solid: capability at or above the need = odds {}; light: below{}",
+            pct_ln(b.ln_odds),
+            if b.need_sd > 0.0 {
+                " (curve drawn with the margin spread)"
+            } else {
+                ""
+            }
         ),
         th.dim(),
     ));

@@ -19,11 +19,14 @@
 //! rare either way; see docs/model.md.
 //!
 //! Invariant: pure and repeatable: the generator is seeded from the options
-//! ([`SimulationOptions::seed`]), never from the operating system.
+//! ([`SimulationOptions::seed`]), never from the operating system. It is
+//! xoshiro256++ (a named algorithm, the solver's too), so a seed reproduces
+//! the same run across oddsboard versions as long as rand's xoshiro256++ and
+//! rand_distr's normal sampler keep their documented output.
 
 use super::{evaluate_task, phi};
 use crate::model::{Incident, Need, Placement, TaskIdx};
-use rand::rngs::StdRng;
+use rand::rngs::Xoshiro256PlusPlus;
 use rand::{RngExt, SeedableRng};
 use rand_distr::StandardNormal;
 use serde::Serialize;
@@ -212,7 +215,9 @@ pub fn simulate(
         .map(|t| (1.0 - t.rho).sqrt())
         .collect();
 
-    let mut rng = StdRng::seed_from_u64(options.seed);
+    // A named algorithm (as in the solver), not StdRng, whose algorithm rand
+    // may change: the same seed gives the same draws in later versions.
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(options.seed);
     let mut shared = vec![0.0_f64; n_types * n_traits];
     let mut totals = vec![0.0_f64; open.len() * n_traits];
     let mut successes = vec![0_u64; open.len()];

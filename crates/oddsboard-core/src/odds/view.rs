@@ -29,12 +29,16 @@ pub struct TraitView {
     pub unit: String,
     /// Aggregate mean capability of the units on the task.
     pub mean: f64,
-    /// Standard deviation of the units' aggregate (within-type correlation
-    /// included, need sd excluded).
+    /// Capability spread: the standard deviation of the units' aggregate
+    /// capability alone (within-type correlation included, the need's own
+    /// sd excluded).
     pub sd: f64,
     pub need: f64,
     /// The need's own standard deviation (0 = certain need).
     pub need_sd: f64,
+    /// Margin spread: the standard deviation of capability − need, √(sd² +
+    /// need_sd²), the spread `z` and the odds are computed with.
+    pub margin_sd: f64,
     /// mean − need: surplus (positive) or shortfall (negative).
     pub margin: f64,
     pub odds: f64,
@@ -135,6 +139,7 @@ fn trait_view(incident: &Incident, t: &TraitOdds) -> TraitView {
         sd: t.unit_sd,
         need: t.need,
         need_sd: t.need_sd,
+        margin_sd: t.sd,
         margin: t.margin(),
         odds: t.odds(),
         ln_odds: finite(t.ln_odds),
