@@ -85,3 +85,82 @@ fn no_color_means_no_colour_and_the_words_are_there_anyway() {
     );
     assert!(text_plain.contains("≡ hedge") && text_plain.contains("LIFE SAFETY"));
 }
+
+/// The parts of a dashboard state that come from the records.
+fn assert_same_reading(
+    a: &oddsboard::tui::app::AppState,
+    b: &oddsboard::tui::app::AppState,
+    at: usize,
+) {
+    assert_eq!(a.incident, b.incident, "incident at {at}");
+    assert_eq!(a.ground, b.ground, "ground at {at}");
+    assert_eq!(a.proposal, b.proposal, "proposal at {at}");
+    assert_eq!(a.recent, b.recent, "recent log at {at}");
+    assert_eq!(a.worst_history, b.worst_history, "worst history at {at}");
+    assert_eq!(a.lost, b.lost, "lost units at {at}");
+    assert_eq!(a.closed, b.closed, "closed tasks at {at}");
+    assert_eq!(a.last_proposed, b.last_proposed, "last proposal at {at}");
+    assert_eq!(a.done_since, b.done_since, "done since at {at}");
+    assert_eq!(a.flash, b.flash, "flash at {at}");
+}
+
+#[test]
+fn jumping_with_checkpoints_equals_a_full_fold() {
+    use oddsboard::tui::app::CHECKPOINT_EVERY;
+    // An invented, seeded log long enough for several checkpoints.
+    let start = chrono::DateTime::parse_from_rfc3339("2026-05-14T09:20:00Z")
+        .unwrap()
+        .with_timezone(&chrono::Utc);
+    let (records, _) =
+        oddsboard::log::generate::generate_log(&drill(), 5 * CHECKPOINT_EVERY, 11, start);
+    assert!(records.len() > 3 * CHECKPOINT_EVERY, "{}", records.len());
+    let last = records.len() - 1;
+    let mut s = replay_state(records.clone(), Theme::monochrome()).unwrap();
+    // Forward and backward, across and onto checkpoint boundaries.
+    let k = CHECKPOINT_EVERY;
+    for target in [
+        3 * k + 5,
+        k + 1,
+        k,
+        k - 1,
+        2 * k,
+        last,
+        1,
+        2 * k - 1,
+        0,
+        3 * k,
+        last - 1,
+        4 * k + 7,
+    ] {
+        replay_seek(&mut s, target);
+        assert_eq!(s.replay.as_ref().unwrap().at, target);
+        // The reference folds every record from the snapshot on, through
+        // the dashboard's own record path and through log::fold.
+        let full = oddsboard::cli::dash::state_from_records(
+            Mode::Replay,
+            &records[..=target],
+            Theme::monochrome(),
+        )
+        .unwrap();
+        assert_same_reading(&s, &full, target);
+        assert_eq!(
+            s.incident,
+            oddsboard::log::fold(&records[..=target]).unwrap(),
+            "log::fold at {target}"
+        );
+    }
+    // Single steps back over a checkpoint, by key.
+    replay_seek(&mut s, 2 * k + 1);
+    for _ in 0..3 {
+        let _ = update(&mut s, AppEvent::Key(KeyCode::Left.into()));
+    }
+    let at = s.replay.as_ref().unwrap().at;
+    assert_eq!(at, 2 * k - 2);
+    let full = oddsboard::cli::dash::state_from_records(
+        Mode::Replay,
+        &records[..=at],
+        Theme::monochrome(),
+    )
+    .unwrap();
+    assert_same_reading(&s, &full, at);
+}

@@ -41,6 +41,17 @@ pub fn state_from_records(
     theme: Theme,
 ) -> anyhow::Result<AppState> {
     let first = crate::log::fold(&records[..1.min(records.len())])?;
+    Ok(state_from(mode, first, records, theme))
+}
+
+/// Like [`state_from_records`], with the state of the snapshot record
+/// already at hand (`first`), so the snapshot is not loaded again.
+pub fn state_from(
+    mode: Mode,
+    first: crate::model::Incident,
+    records: &[crate::log::Record],
+    theme: Theme,
+) -> AppState {
     let mut state = AppState::new(mode, first, theme);
     for r in records {
         let _ = update(&mut state, AppEvent::RecordAppended(r.clone()));
@@ -49,7 +60,17 @@ pub fn state_from_records(
     state.advice_generation = 0;
     // A resumed dashboard does not log again the proposal already logged.
     state.last_written_proposal = state.last_proposed.as_ref().map(|(_, m)| m.clone());
-    Ok(state)
+    state
+}
+
+/// The incident name in a log's snapshot record, read from the record as it
+/// is (no load): enough to tell whether a log is of the same incident.
+fn logged_name(path: &Path) -> Option<String> {
+    let contents = read_log(path).ok()?;
+    match &contents.records.first()?.event {
+        crate::log::Event::IncidentOpened { incident, .. } => Some(incident.incident.name.clone()),
+        _ => None,
+    }
 }
 
 /// The default log beside an incident file.
@@ -60,6 +81,9 @@ pub fn default_log_path(file: &Path) -> PathBuf {
 pub fn run(args: Args) -> CliResult {
     let by = actor(args.by);
     let mut resumed_note = None;
+    // The state of the snapshot record when this run wrote it: then it is
+    // not loaded again below.
+    let mut created: Option<crate::model::Incident> = None;
     let (writer, log_path) = if looks_like_log(&args.file) {
         let w = LogWriter::open(&args.file)?;
         (w, args.file.clone())
@@ -71,11 +95,8 @@ pub fn run(args: Args) -> CliResult {
             // Re-running the same command after a crash or a closed terminal
             // must pick the incident up where it was, never start it afresh
             // beside a live log. An explicit --log is never reused silently.
-            let logged = read_log(&path)
-                .ok()
-                .and_then(|c| crate::log::fold(&c.records[..1.min(c.records.len())]).ok());
-            match logged {
-                Some(first) if !explicit && first.name == incident.name => {
+            match logged_name(&path) {
+                Some(name) if !explicit && name == incident.name => {
                     resumed_note = Some(format!(
                         "Resumed {} (same incident); --log NEW.log starts afresh",
                         path.display()
@@ -92,6 +113,7 @@ pub fn run(args: Args) -> CliResult {
         } else {
             let w = LogWriter::create(&path, &incident, &by)
                 .with_context(|| format!("creating the log {}", path.display()))?;
+            created = Some(w.state().clone());
             (w, path)
         }
     };
@@ -99,7 +121,13 @@ pub fn run(args: Args) -> CliResult {
     if let Some(t) = &contents.torn_tail {
         eprintln!("warning: {}:{t}", log_path.display());
     }
-    let mut state = state_from_records(Mode::Command, &contents.records, Theme::from_env())?;
+    let mut state = match created {
+        // A new log holds the snapshot only (its creator holds the lock
+        // only while writing it, so another writer may have appended since:
+        // those records are applied on top).
+        Some(first) => state_from(Mode::Command, first, &contents.records, Theme::from_env()),
+        None => state_from_records(Mode::Command, &contents.records, Theme::from_env())?,
+    };
     state.operator = by;
     if let Some(text) = resumed_note {
         state.flash = Some(crate::tui::app::Flash { error: false, text });

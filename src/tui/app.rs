@@ -168,7 +168,14 @@ pub struct ReplayCursor {
     pub speed: f64,
     /// Seconds of play not yet turned into steps.
     pub owed: f64,
+    /// The state after every [`CHECKPOINT_EVERY`]-th record, kept as the
+    /// replay first passes it, so a step back or a jump folds at most that
+    /// many records instead of the whole log.
+    checkpoints: std::sync::Arc<Vec<(usize, AppState)>>,
 }
+
+/// Records between two replay checkpoints.
+pub const CHECKPOINT_EVERY: usize = 64;
 
 /// Play speeds offered by `+`/`-`, records per second.
 pub const REPLAY_SPEEDS: [f64; 6] = [0.5, 1.0, 2.0, 5.0, 10.0, 50.0];
@@ -341,12 +348,6 @@ impl AppState {
             });
         }
         effects
-    }
-
-    /// Turns the background advice off (replay, or a run without advice).
-    pub fn advice_off(&mut self) {
-        self.advice_status = AdviceStatus::Off;
-        self.advice.clear();
     }
 
     /// Turns the background advice on for the current state: the runtime
@@ -782,32 +783,59 @@ pub fn replay_state(records: Vec<Record>, theme: Theme) -> Result<AppState, crat
         playing: false,
         speed: 2.0,
         owed: 0.0,
+        checkpoints: Default::default(),
     });
     Ok(state)
 }
 
-/// Moves the replay to record index `target`, rebuilding the state from the
-/// snapshot (the log is the only source of truth; no reverse steps).
+/// Moves the replay to record index `target`. Forward, the records in
+/// between are applied to the state shown; backward, the state restarts from
+/// the last checkpoint at or before `target` (or the snapshot) and folds
+/// forward from there: the log stays the only source of truth (no reverse
+/// steps), and no step re-folds the whole log.
 pub fn replay_seek(state: &mut AppState, target: usize) {
-    let Some(cursor) = state.replay.clone() else {
+    let Some(mut cursor) = state.replay.take() else {
         return;
     };
     let target = target.min(cursor.records.len().saturating_sub(1));
-    let Ok(first) = crate::log::fold(&cursor.records[..1]) else {
-        return;
+    // `applied`: index of the last record already in `state`, if any.
+    let applied = if target >= cursor.at {
+        Some(cursor.at)
+    } else {
+        let base = cursor
+            .checkpoints
+            .iter()
+            .rev()
+            .find(|(i, _)| *i <= target)
+            .map(|(i, s)| (*i, s.clone()));
+        let (applied, mut fresh) = match base {
+            Some((i, s)) => (Some(i), s),
+            None => {
+                let Ok(first) = crate::log::fold(&cursor.records[..1]) else {
+                    state.replay = Some(cursor);
+                    return;
+                };
+                (None, AppState::new(Mode::Replay, first, state.theme))
+            }
+        };
+        fresh.selected = state.selected;
+        fresh.theme = state.theme;
+        *state = fresh;
+        applied
     };
-    let mut fresh = AppState::new(Mode::Replay, first, state.theme);
-    for r in cursor.records.iter().take(target + 1) {
-        on_record(&mut fresh, r.clone());
+    let from = applied.map_or(0, |i| i + 1);
+    for i in from..=target {
+        on_record(state, cursor.records[i].clone());
+        let known = cursor.checkpoints.last().map_or(0, |(k, _)| *k);
+        if i > 0 && i % CHECKPOINT_EVERY == 0 && i > known {
+            std::sync::Arc::make_mut(&mut cursor.checkpoints).push((i, state.clone()));
+        }
     }
-    fresh.selected = state
+    state.selected = state
         .selected
-        .min(fresh.task_order().len().saturating_sub(1));
-    fresh.replay = Some(ReplayCursor {
-        at: target,
-        ..cursor
-    });
-    *state = fresh;
+        .min(state.task_order().len().saturating_sub(1));
+    cursor.at = target;
+    state.replay = Some(cursor);
 }
 
 fn replay_tick(state: &mut AppState, dt: Duration) {
