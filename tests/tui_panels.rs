@@ -374,3 +374,36 @@ fn counts_take_the_right_number() {
     assert_eq!(count(0, "move", "moves"), "0 moves");
     assert_eq!(count(2, "move", "moves"), "2 moves");
 }
+
+#[test]
+fn the_picture_names_the_capability_and_the_margin_spread_apart() {
+    // T3 (third on the board): E3 (engine, sd 250) and W1 (tender, sd 600),
+    // one unit of each type, so the capability spread is √(250² + 600²) =
+    // 650 (sum of independent normals); the need's own sd 200 adds in
+    // quadrature: margin spread √(650² + 200²) ≈ 680.
+    let mut s = state(Mode::Watch, drill());
+    s.selected = 2;
+    assert_eq!(
+        s.selected_task().map(|t| s.incident.tasks[t].id.as_str()),
+        Some("T3")
+    );
+    let text: String = oddsboard::tui::panel_picture::lines(&s, 200, 40)
+        .iter()
+        .map(|l| l.to_string() + "\n")
+        .collect();
+    assert!(
+        text.contains("capability 3100 ± 650 · need 2500 ± 200 · margin spread ± 680"),
+        "{text}"
+    );
+    assert!(
+        text.contains("curve drawn with the margin spread"),
+        "{text}"
+    );
+    // A certain need shows one spread only.
+    s.selected = 0;
+    let text: String = oddsboard::tui::panel_picture::lines(&s, 200, 40)
+        .iter()
+        .map(|l| l.to_string() + "\n")
+        .collect();
+    assert!(!text.contains("margin spread"), "{text}");
+}
