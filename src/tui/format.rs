@@ -37,6 +37,12 @@ pub fn z_value(z: f64) -> String {
     }
 }
 
+/// Joins a percentage to its number with a no-break space, so that a
+/// wrapped line never leaves `%` alone at the start of the next row.
+pub fn keep_percent(s: &str) -> String {
+    s.replace(" %", "\u{a0}%")
+}
+
 /// A horizontal bar `width` cells wide filled to `fraction` in eighths; the
 /// unfilled part is a dotted track so an empty bar is still visible without
 /// colour.
@@ -110,5 +116,6 @@ mod tests {
         assert_eq!(signed_amount(0.25), "+0.25");
         assert_eq!(pad("abcdef", 4), "abc…");
         assert_eq!(pad("ab", 4), "ab  ");
+        assert_eq!(keep_percent("98.1 % < 99.0 %"), "98.1\u{a0}% < 99.0\u{a0}%");
     }
 }

@@ -10,6 +10,7 @@ use ratatui::text::Line;
 use ratatui::widgets::{Block, Paragraph, Wrap};
 
 use super::app::{AdviceStatus, AppState};
+use super::format::keep_percent;
 use crate::advise::NoteLevel;
 use crate::model::Tier;
 use crate::odds::text::{pct, pct_ln};
@@ -136,7 +137,7 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     } else {
         notes
             .into_iter()
-            .map(|n| Line::styled(format!("! {n}"), th.warning()))
+            .map(|n| Line::styled(format!("! {}", keep_percent(&n)), th.warning()))
             .collect()
     };
     lines.extend(advice.into_iter().map(|(level, text)| {
@@ -145,7 +146,7 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
         } else {
             th.dim()
         };
-        Line::styled(text, style)
+        Line::styled(keep_percent(&text), style)
     }));
     frame.render_widget(Paragraph::new(lines).wrap(Wrap { trim: true }), notes_area);
     frame.render_widget(
