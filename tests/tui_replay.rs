@@ -164,3 +164,31 @@ fn jumping_with_checkpoints_equals_a_full_fold() {
     .unwrap();
     assert_same_reading(&s, &full, at);
 }
+
+#[test]
+fn a_resumed_log_starts_from_the_writers_snapshot_state() {
+    let mut b = Bench::new(drill());
+    b.writer
+        .append(
+            "ic",
+            Event::Moved {
+                unit: "E4".into(),
+                to: Some("T4".into()),
+            },
+        )
+        .unwrap();
+    let records = b.records();
+    let mut w = oddsboard::log::LogWriter::open(&b.path).unwrap();
+    let first = w.take_first_state().expect("the snapshot's state");
+    // What a reader rebuilds from the snapshot record alone.
+    assert_eq!(first, oddsboard::log::fold(&records[..1]).unwrap());
+    assert_ne!(&first, w.state(), "the move is not in the snapshot");
+    assert!(w.take_first_state().is_none(), "given once");
+    // The dashboard built from it equals one built by folding the log.
+    let resumed =
+        oddsboard::cli::dash::state_from(Mode::Command, first, &records, Theme::monochrome());
+    let folded =
+        oddsboard::cli::dash::state_from_records(Mode::Command, &records, Theme::monochrome())
+            .unwrap();
+    assert_same_reading(&resumed, &folded, records.len() - 1);
+}

@@ -81,10 +81,7 @@ pub fn default_log_path(file: &Path) -> PathBuf {
 pub fn run(args: Args) -> CliResult {
     let by = actor(args.by);
     let mut resumed_note = None;
-    // The state of the snapshot record when this run wrote it: then it is
-    // not loaded again below.
-    let mut created: Option<crate::model::Incident> = None;
-    let (writer, log_path) = if looks_like_log(&args.file) {
+    let (mut writer, log_path) = if looks_like_log(&args.file) {
         let w = LogWriter::open(&args.file)?;
         (w, args.file.clone())
     } else {
@@ -113,7 +110,6 @@ pub fn run(args: Args) -> CliResult {
         } else {
             let w = LogWriter::create(&path, &incident, &by)
                 .with_context(|| format!("creating the log {}", path.display()))?;
-            created = Some(w.state().clone());
             (w, path)
         }
     };
@@ -121,10 +117,9 @@ pub fn run(args: Args) -> CliResult {
     if let Some(t) = &contents.torn_tail {
         eprintln!("warning: {}:{t}", log_path.display());
     }
-    let mut state = match created {
-        // A new log holds the snapshot only (its creator holds the lock
-        // only while writing it, so another writer may have appended since:
-        // those records are applied on top).
+    // The writer has the snapshot's state already (it wrote or folded the
+    // log): the snapshot is not loaded a second time.
+    let mut state = match writer.take_first_state() {
         Some(first) => state_from(Mode::Command, first, &contents.records, Theme::from_env()),
         None => state_from_records(Mode::Command, &contents.records, Theme::from_env())?,
     };

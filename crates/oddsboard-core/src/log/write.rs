@@ -10,7 +10,7 @@ use super::apply::apply;
 use super::codec::{Record, encode_line, log_time};
 use super::event::{Event, FORMAT_VERSION};
 use super::read::{TornTail, parse_lines, parse_log};
-use super::replay::fold;
+use super::replay::{Replay, fold};
 use super::snapshot;
 use crate::model::Incident;
 use chrono::Utc;
@@ -44,6 +44,9 @@ pub struct LogWriter {
     name: String,
     file: File,
     state: Incident,
+    /// The state of the snapshot record, until a caller takes it (a
+    /// dashboard replays the log from it without loading the snapshot again).
+    first_state: Option<Incident>,
     last_seq: u64,
     end_offset: u64,
     repaired: Option<TornTail>,
@@ -114,6 +117,7 @@ impl LogWriter {
             path: path.to_path_buf(),
             name,
             file,
+            first_state: Some(state.clone()),
             state,
             last_seq: 1,
             end_offset: line.len() as u64,
@@ -142,11 +146,13 @@ impl LogWriter {
             (&file).read_to_end(&mut bytes).map_err(io)?;
             parse_log(&bytes, &name)?
         };
-        let state = fold(&contents.records).map_err(|e| e.in_file(&name))?;
+        let (first_state, state) =
+            fold_from_start(&contents.records).map_err(|e| e.in_file(&name))?;
         Ok(LogWriter {
             path: path.to_path_buf(),
             name,
             file,
+            first_state: Some(first_state),
             state,
             last_seq: contents.records.last().map_or(0, |r| r.seq),
             end_offset: contents.end_offset,
@@ -160,6 +166,10 @@ impl LogWriter {
     /// The state after the last record this writer knows of.
     pub fn state(&self) -> &Incident {
         &self.state
+    }
+    /// The state of the snapshot record (the log's first), once.
+    pub fn take_first_state(&mut self) -> Option<Incident> {
+        self.first_state.take()
     }
     pub fn last_seq(&self) -> u64 {
         self.last_seq
@@ -275,4 +285,17 @@ impl LogWriter {
         self.end_offset += line.len() as u64;
         Ok(record)
     }
+}
+
+/// The states after the snapshot record and after the last record.
+fn fold_from_start(records: &[Record]) -> Result<(Incident, Incident), LogError> {
+    let Some((first, rest)) = records.split_first() else {
+        return fold(records).map(|s| (s.clone(), s));
+    };
+    let mut replay = Replay::start(first)?;
+    let start = replay.state.clone();
+    for r in rest {
+        replay.step(r)?;
+    }
+    Ok((start, replay.state))
 }
