@@ -316,7 +316,9 @@ pub fn render_markdown(a: &AfterAction) -> String {
     let _ = writeln!(
         out,
         "- Secure levels: life {}, stabilization {}, property {}\n",
-        a.secure[0], a.secure[1], a.secure[2]
+        pct(a.secure[0]),
+        pct(a.secure[1]),
+        pct(a.secure[2])
     );
 
     let _ = writeln!(out, "## Worst odds on the ground over time\n");
