@@ -8,6 +8,7 @@ use clap::{CommandFactory, FromArgMatches, Parser, Subcommand};
 use std::process::ExitCode;
 
 pub mod advise;
+pub mod charts;
 pub mod check;
 pub mod dash;
 pub mod generate;
