@@ -74,8 +74,10 @@ pub fn run(args: Args) -> CliResult {
         ..AdviseOptions::default()
     };
     let cancel = AtomicBool::new(false);
+    let work = super::progress::Work::spinner("advising (losses, requests)", args.json);
     let advice = advise(&incident, &options, &cancel)
         .map_err(|e| anyhow::anyhow!("{}: {e}", args.file.display()))?;
+    drop(work);
     if args.json {
         println!("{}", serde_json::to_string_pretty(&advice)?);
         return Ok(());

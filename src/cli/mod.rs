@@ -15,6 +15,7 @@ pub mod generate;
 pub mod input;
 pub mod odds;
 pub mod plan;
+pub mod progress;
 pub mod record;
 pub mod render;
 pub mod replay;
