@@ -20,8 +20,10 @@ const TIER_TITLES: [&str; 3] = [
     "Property conservation",
 ];
 
-/// Polylines of the chart: (stroke colour, stroke width, points).
-fn polylines(doc: &roxmltree::Document) -> Vec<(String, String, Vec<(f64, f64)>)> {
+/// One polyline of the chart: stroke colour, stroke width, points.
+type Polyline = (String, String, Vec<(f64, f64)>);
+
+fn polylines(doc: &roxmltree::Document) -> Vec<Polyline> {
     doc.descendants()
         .filter(|n| n.has_tag_name("polyline"))
         .map(|n| {
