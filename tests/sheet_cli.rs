@@ -120,6 +120,21 @@ fn every_placed_unit_appears_under_its_task_on_each_sample() {
             }
         }
         assert_eq!(got.len(), want.len(), "{}: extra units", file.display());
+        // A note that points at reserve units names only units the
+        // reference has in reserve.
+        for t in json["tasks"].as_array().unwrap() {
+            for n in t["notes"].as_array().unwrap() {
+                let n = n.as_str().unwrap();
+                if let Some((_, list)) = n.split_once("reserve units could add to its ") {
+                    let list = list.split_once(": ").unwrap().1;
+                    let list = list.split(" (").next().unwrap();
+                    for u in list.split(", ") {
+                        assert_eq!(want.get(u), Some(&None), "{}: {u} in {n}", file.display());
+                        assert!(!oos.contains(&u), "{u} is out of service");
+                    }
+                }
+            }
+        }
         // The JSON lists the same units under the same tasks.
         for t in json["tasks"].as_array().unwrap() {
             for u in t["units"].as_array().unwrap() {

@@ -12,7 +12,7 @@ use super::CliResult;
 use super::input::{load_state, looks_like_log, read_log_reporting};
 use super::render::{format_amount, format_margin, format_z, safety_notes, tier_title};
 use crate::model::{Incident, Tier, UnitIdx, UnitStatus};
-use crate::odds::view::{SAFETY_CAUTION, task_views};
+use crate::odds::view::{SAFETY_CAUTION, TaskView, task_views};
 use serde::Serialize;
 use std::fmt::Write as _;
 use std::path::PathBuf;
@@ -145,6 +145,35 @@ fn brings(inc: &Incident, u: UnitIdx) -> Vec<usize> {
         .collect()
 }
 
+/// The safety notes about one task, then, for a task short of its tier's
+/// secure level, the reserve units that could add to its binding trait (an
+/// idle unit while a task it could lift stays short is worth a look).
+fn task_notes(inc: &Incident, t: usize, v: &TaskView, binding: Option<usize>) -> Vec<String> {
+    let mut notes = safety_notes(std::slice::from_ref(v));
+    let task = &inc.tasks[t];
+    let (Some(k), true) = (binding, v.odds < inc.secure.get(task.tier)) else {
+        return notes;
+    };
+    let full = task
+        .max_units
+        .is_some_and(|m| inc.placement.units_on(t).count() >= m as usize);
+    let helpers: Vec<&str> = (0..inc.units.len())
+        .filter(|&u| inc.placement.get(u).is_none() && inc.may_place(u, t))
+        .filter(|&u| inc.units[u].ratings[k].mean > 0.0)
+        .map(|u| inc.units[u].id.as_str())
+        .collect();
+    if !helpers.is_empty() && !full {
+        notes.push(format!(
+            "{} is below its secure level ({}%) and these reserve units could add to its {}: {} (see `oddsboard plan`).",
+            v.id,
+            format!("{:.1}", inc.secure.get(task.tier) * 100.0).trim_end_matches(".0"),
+            inc.traits[k].id,
+            helpers.join(", ")
+        ));
+    }
+    notes
+}
+
 /// Builds the sheet of the placement on the ground.
 pub fn build(inc: &Incident, as_of: Option<(u64, String)>) -> Sheet {
     let views = task_views(inc, &inc.placement);
@@ -201,7 +230,7 @@ pub fn build(inc: &Incident, as_of: Option<(u64, String)>) -> Sheet {
                         unit_entry(inc, u, &traits)
                     })
                     .collect(),
-                notes: safety_notes(std::slice::from_ref(v)),
+                notes: task_notes(inc, t, v, binding),
             });
         }
     }
