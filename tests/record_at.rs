@@ -165,3 +165,35 @@ fn the_bundled_drill_has_a_believable_clock() {
     // And it still loads: every record applies to the state before it.
     oddsboard().arg("check").arg(&log).assert().success();
 }
+
+/// Two writers on one log: a time earlier than what the other writer
+/// appended is refused once this writer has caught up, and nothing is
+/// written.
+#[test]
+fn another_writers_later_record_counts() {
+    use oddsboard::log::{Event, LogError, LogWriter};
+    let dir = tempfile::tempdir().unwrap();
+    let log = dir.path().join("drill.log");
+    let incident = oddsboard::model::parse_incident_str(YAML, "drill.yaml").unwrap();
+    let t = |s: &str| s.parse::<DateTime<Utc>>().unwrap();
+    let note = |text: &str| -> Event {
+        serde_yaml::from_str(&format!("{{kind: note, text: {text}}}")).unwrap()
+    };
+    let mut a =
+        LogWriter::create_at(&log, &incident, "ic", Some(t("2026-05-14T09:20:00Z"))).unwrap();
+    let mut b = LogWriter::open(&log).unwrap();
+    b.append_at("radio", note("later"), Some(t("2026-05-14T10:00:00Z")))
+        .unwrap();
+    let before = std::fs::read(&log).unwrap();
+    let err = a
+        .append_at("ic", note("earlier"), Some(t("2026-05-14T09:30:00Z")))
+        .unwrap_err();
+    assert!(
+        matches!(err, LogError::TimeBackwards { seq: 2, .. }),
+        "{err}"
+    );
+    assert_eq!(std::fs::read(&log).unwrap(), before);
+    a.append_at("ic", note("after"), Some(t("2026-05-14T10:05:00Z")))
+        .unwrap();
+    assert_eq!(times(&log).len(), 3);
+}
