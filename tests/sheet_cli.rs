@@ -181,3 +181,35 @@ fn sheet_of_a_missing_file_is_bad_input() {
         .assert()
         .code(1);
 }
+
+/// Text from the file reaches the sheet escaped: a pipe cannot break a
+/// Markdown table and a control character is shown, not sent raw.
+#[test]
+fn labels_are_escaped_in_the_markdown() {
+    let dir = tempfile::tempdir().unwrap();
+    let yaml = dir.path().join("odd-labels.yaml");
+    // Invented; the label holds a pipe and a bell character (YAML "\a").
+    std::fs::write(
+        &yaml,
+        "incident: { name: Invented label check }\n\
+         traits: [ { id: water, unit: L/min } ]\n\
+         unit_types: [ { id: engine, label: \"Pumper | engine\", traits: { water: { mean: 1900, sd: 250 } } } ]\n\
+         units: [ { id: E1, type: engine } ]\n\
+         tasks: [ { id: T1, label: \"Attack \\a east | wing\", tier: life, needs: { water: 1000 } } ]\n\
+         placement: { E1: T1 }\n",
+    )
+    .unwrap();
+    let md = stdout(&["sheet"], &yaml);
+    assert!(
+        !md.contains('\u{7}'),
+        "a raw control character reached stdout"
+    );
+    assert!(md.contains("### T1: Attack \\u{7} east \\| wing"), "{md}");
+    assert!(md.contains("| E1 | engine: Pumper \\| engine |"), "{md}");
+    // The CSV too shows the control character escaped; the pipe is kept
+    // and a CSV reader gets the label back whole.
+    let csv_text = stdout(&["sheet", "--csv"], &yaml);
+    let mut r = csv::Reader::from_reader(csv_text.as_bytes());
+    let row = r.records().next().unwrap().unwrap();
+    assert_eq!(&row[2], "Attack \\u{7} east | wing");
+}

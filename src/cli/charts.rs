@@ -78,8 +78,10 @@ fn tier_segments(
     segments
 }
 
+/// Minutes from `t0` to `t`; never negative, so a log written before times
+/// were checked to increase still draws inside the axes.
 fn minutes_between(t0: DateTime<Utc>, t: DateTime<Utc>) -> f64 {
-    (t - t0).num_milliseconds() as f64 / 60_000.0
+    ((t - t0).num_milliseconds() as f64 / 60_000.0).max(0.0)
 }
 
 /// The worst odds per tier over time, as SVG text.

@@ -254,18 +254,23 @@ pub fn build(inc: &Incident, as_of: Option<(u64, String)>) -> Sheet {
     }
 }
 
-/// Text from a file or a feed, safe for a Markdown table cell: control
-/// characters shown escaped, pipes escaped.
-fn cell(s: &str) -> String {
+/// Text from a file or a feed, safe for a terminal: control characters
+/// shown escaped (`\u{7}`), never sent raw.
+fn plain(s: &str) -> String {
     let mut out = String::with_capacity(s.len());
     for c in s.chars() {
-        match c {
-            '|' => out.push_str("\\|"),
-            c if c.is_control() => out.extend(c.escape_default()),
-            c => out.push(c),
+        if c.is_control() {
+            out.extend(c.escape_default());
+        } else {
+            out.push(c);
         }
     }
     out
+}
+
+/// [`plain`] text that is also safe in a Markdown table cell.
+fn cell(s: &str) -> String {
+    plain(s).replace('|', "\\|")
 }
 
 fn n_units(n: usize) -> String {
@@ -396,8 +401,8 @@ pub fn markdown(sheet: &Sheet) -> String {
         } else {
             t.needs.iter().map(need_text).collect::<Vec<_>>().join("; ")
         };
-        let _ = writeln!(out, "- Needs: {needs}");
-        let _ = writeln!(out, "- Odds: {}", standing(t));
+        let _ = writeln!(out, "- Needs: {}", plain(&needs));
+        let _ = writeln!(out, "- Odds: {}", plain(&standing(t)));
         for n in &t.notes {
             let _ = writeln!(out, "- **Note:** {}", cell(n));
         }
@@ -467,14 +472,15 @@ pub fn csv_text(sheet: &Sheet) -> anyhow::Result<String> {
     for t in &sheet.tasks {
         let odds = odds_text(t);
         let odds_number = t.odds.to_string();
-        let needs = t.needs.iter().map(need_text).collect::<Vec<_>>().join("; ");
+        let needs = plain(&t.needs.iter().map(need_text).collect::<Vec<_>>().join("; "));
         let regime = t.regime.unwrap_or("");
         let binding = t.binding_trait.as_deref().unwrap_or("");
-        let notes = t.notes.join(" ");
+        let notes = plain(&t.notes.join(" "));
+        let label = plain(&t.label);
         let task_cells = [
             "task",
             t.id.as_str(),
-            t.label.as_str(),
+            label.as_str(),
             t.tier,
             needs.as_str(),
             odds_number.as_str(),
@@ -488,7 +494,7 @@ pub fn csv_text(sheet: &Sheet) -> anyhow::Result<String> {
             w.write_record(&row)?;
         }
         for u in &t.units {
-            let rating = ratings_text(u);
+            let rating = plain(&ratings_text(u));
             let mut row: Vec<&str> = task_cells.to_vec();
             row.extend([
                 u.id.as_str(),
@@ -505,7 +511,7 @@ pub fn csv_text(sheet: &Sheet) -> anyhow::Result<String> {
         ("out_of_service", &sheet.out_of_service),
     ] {
         for u in units {
-            let rating = ratings_text(u);
+            let rating = plain(&ratings_text(u));
             let blank = [""; 8];
             let mut row: Vec<&str> = vec![section];
             row.extend(blank);
