@@ -1,6 +1,6 @@
 //! Progress on stderr for long work: shown on a terminal after about a
 //! second, never when stderr is not a terminal, never with `--json`.
-//! The terminal case plans a generated 200-unit incident with a 1.6 s
+//! The terminal case plans a generated 200-unit incident with a 2 s
 //! budget: the anytime search cannot prove optimality there, so it usually
 //! runs for the whole budget; should it stop early (no improvement), the
 //! presence check is skipped for that run, since no progress was due.
