@@ -197,3 +197,26 @@ fn another_writers_later_record_counts() {
         .unwrap();
     assert_eq!(times(&log).len(), 3);
 }
+
+/// The bundled drill is exactly what its script records: every record's
+/// time is given, so the bytes (checksums included) are reproducible.
+#[test]
+fn the_drill_script_makes_the_bundled_log() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("drill.log");
+    let status = std::process::Command::new("sh")
+        .arg(root.join("sample-incidents/drill-warehouse-fire.sh"))
+        .arg(&out)
+        .env("ODDSBOARD", assert_cmd::cargo::cargo_bin("oddsboard"))
+        .status()
+        .expect("sh runs");
+    assert!(status.success());
+    let made = std::fs::read_to_string(&out).unwrap();
+    let bundled =
+        std::fs::read_to_string(root.join("sample-incidents/drill-warehouse-fire.log")).unwrap();
+    assert_eq!(
+        made, bundled,
+        "re-run the script to refresh the bundled drill"
+    );
+}
