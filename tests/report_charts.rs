@@ -51,7 +51,7 @@ fn texts(doc: &roxmltree::Document) -> Vec<(f64, String)> {
         .filter(|n| n.has_tag_name("text"))
         .map(|n| {
             let y = n.attribute("y").and_then(|y| y.parse().ok()).unwrap_or(0.0);
-            let t: String = n.descendants().filter_map(|c| c.text()).collect();
+            let t: String = n.children().filter_map(|c| c.text()).collect();
             (y, t.trim().to_string())
         })
         .collect()
@@ -94,7 +94,7 @@ fn check_worst_chart(svg: &str, json: &serde_json::Value) {
     let texts = texts(&doc);
     let has = |s: &str| texts.iter().any(|(_, t)| t.contains(s));
     assert!(has("worst task odds in the tier"), "y axis label");
-    assert!(has("time (UTC)"), "x axis label");
+    assert!(has("time (UTC)") || has("log record"), "x axis label");
     assert!(has("100%") && has("0%"), "y ticks in percent");
     // The plot area from the y axis line (the first vertical black line).
     let lines = polylines(&doc);
@@ -216,6 +216,53 @@ fn a_log_with_one_tier_draws_one_series() {
     }
     let (worst, _, json) = charts_of(&log);
     check_worst_chart(&worst, &json);
+}
+
+/// A log written within seconds (a script) is drawn against its record
+/// numbers, one tick per record, and still ends each series right.
+#[test]
+fn a_log_written_in_seconds_is_drawn_by_record() {
+    let dir = tempfile::tempdir().unwrap();
+    let yaml = dir.path().join("quick.yaml");
+    // Invented: a life task and a property task, written in one go.
+    std::fs::write(
+        &yaml,
+        "incident: { name: Invented quick drill }\n\
+         traits: [ { id: water, unit: L/min } ]\n\
+         unit_types: [ { id: engine, traits: { water: { mean: 1900, sd: 250 } } } ]\n\
+         units: [ { id: E1, type: engine }, { id: E2, type: engine }, { id: E3, type: engine } ]\n\
+         tasks: [ { id: T1, tier: life, needs: { water: 3000 } }, { id: T2, needs: { water: 1000 } } ]\n",
+    )
+    .unwrap();
+    let log = dir.path().join("quick.log");
+    oddsboard()
+        .arg("start")
+        .arg(&yaml)
+        .arg("--log")
+        .arg(&log)
+        .assert()
+        .success();
+    for ev in [
+        "{kind: moved, unit: E1, to: T1}",
+        "{kind: moved, unit: E2, to: T1}",
+        "{kind: moved, unit: E3, to: T2}",
+    ] {
+        oddsboard()
+            .arg("record")
+            .arg(&log)
+            .arg(ev)
+            .assert()
+            .success();
+    }
+    let (worst, _, json) = charts_of(&log);
+    check_worst_chart(&worst, &json);
+    let doc = roxmltree::Document::parse(&worst).unwrap();
+    let texts = texts(&doc);
+    assert!(texts.iter().any(|(_, t)| t.starts_with("log record")));
+    for seq in 1..=4 {
+        let tick = format!("#{seq}");
+        assert!(texts.iter().any(|(_, t)| *t == tick), "no tick {tick}");
+    }
 }
 
 #[test]

@@ -8,6 +8,7 @@
 use super::render::tier_title;
 use crate::model::Tier;
 use crate::report::AfterAction;
+use crate::report::after_action::WorstPoint;
 use crate::report::calibration::ReliabilityBin;
 use chrono::{DateTime, Utc};
 use plotters::prelude::*;
@@ -44,15 +45,14 @@ fn parse_at(at: &str) -> Option<DateTime<Utc>> {
 fn tier_segments(
     a: &AfterAction,
     tier: usize,
-    t0: DateTime<Utc>,
+    x_of: &dyn Fn(&WorstPoint) -> Option<f64>,
     end: f64,
 ) -> Vec<Vec<(f64, f64)>> {
     let mut segments: Vec<Vec<(f64, f64)>> = Vec::new();
     let mut current: Vec<(f64, f64)> = Vec::new();
     let mut last: Option<f64> = None;
     for p in &a.worst_timeline {
-        let Some(at) = parse_at(&p.at) else { continue };
-        let x = minutes_between(t0, at);
+        let Some(x) = x_of(p) else { continue };
         if let Some(prev) = last {
             current.push((x, prev));
         }
@@ -89,9 +89,26 @@ pub fn worst_odds_svg(a: &AfterAction) -> anyhow::Result<String> {
     let t0 = parse_at(&a.first_at)
         .ok_or_else(|| anyhow::anyhow!("report: bad first record time {}", a.first_at))?;
     let t_end = parse_at(&a.last_at).unwrap_or(t0);
-    let end = minutes_between(t0, t_end);
-    // At least a minute of axis, so a log written in seconds still shows.
-    let x_max = (end * 1.02).max(1.0);
+    // A log written within a minute (a script, a test) would squeeze every
+    // change onto one tick: such a log is drawn against its record numbers.
+    let by_seq = minutes_between(t0, t_end) < 1.0;
+    let x_of = |p: &WorstPoint| -> Option<f64> {
+        if by_seq {
+            Some(p.seq as f64)
+        } else {
+            parse_at(&p.at).map(|at| minutes_between(t0, at))
+        }
+    };
+    let end = if by_seq {
+        a.records as f64
+    } else {
+        minutes_between(t0, t_end)
+    };
+    let (x_min, x_max) = if by_seq {
+        (1.0, end.max(2.0) + 0.2)
+    } else {
+        (0.0, (end * 1.02).max(1.0))
+    };
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
@@ -104,13 +121,20 @@ pub fn worst_odds_svg(a: &AfterAction) -> anyhow::Result<String> {
             .margin(14)
             .x_label_area_size(48)
             .y_label_area_size(64)
-            .build_cartesian_2d(0f64..x_max, 0f64..1.0f64)
+            .build_cartesian_2d(x_min..x_max, 0f64..1.0f64)
             .map_err(err("chart"))?;
         // Clock times for a log of some length; minutes for a short one,
         // where every tick would show the same minute.
         let clock = x_max >= 10.0;
         let x_label = |m: &f64| {
-            if clock {
+            if by_seq {
+                // Records are whole numbers: no label between them.
+                if (m - m.round()).abs() < 1e-9 {
+                    format!("#{m:.0}")
+                } else {
+                    String::new()
+                }
+            } else if clock {
                 (t0 + chrono::Duration::milliseconds((m * 60_000.0) as i64))
                     .format("%H:%M")
                     .to_string()
@@ -118,13 +142,19 @@ pub fn worst_odds_svg(a: &AfterAction) -> anyhow::Result<String> {
                 format!("+{m:.1} min")
             }
         };
+        let x_desc = if by_seq {
+            format!(
+                "log record (the whole log was written within a minute of {} UTC)",
+                t0.format("%Y-%m-%d %H:%M")
+            )
+        } else {
+            format!("time (UTC); the log opened {}", t0.format("%Y-%m-%d %H:%M"))
+        };
         chart
             .configure_mesh()
             .light_line_style(WHITE)
-            .x_desc(format!(
-                "time (UTC); the log opened {}",
-                t0.format("%Y-%m-%d %H:%M")
-            ))
+            .x_desc(x_desc)
+            .x_labels(if by_seq { (a.records).clamp(2, 12) } else { 10 })
             .y_desc("worst task odds in the tier")
             .x_label_formatter(&x_label)
             .y_label_formatter(&|y| format!("{:.0}%", y * 100.0))
@@ -133,7 +163,7 @@ pub fn worst_odds_svg(a: &AfterAction) -> anyhow::Result<String> {
         for tier in Tier::ALL {
             let i = tier.index();
             let colour = tier_colour(tier);
-            let segments = tier_segments(a, i, t0, end);
+            let segments = tier_segments(a, i, &x_of, end);
             if segments.is_empty() {
                 continue;
             }
@@ -142,7 +172,7 @@ pub fn worst_odds_svg(a: &AfterAction) -> anyhow::Result<String> {
             // below (SPEC §3).
             chart
                 .draw_series(LineSeries::new(
-                    [(0.0, secure), (x_max, secure)],
+                    [(x_min, secure), (x_max, secure)],
                     colour.mix(0.5).stroke_width(1),
                 ))
                 .map_err(err("chart"))?;
@@ -200,8 +230,9 @@ pub fn reliability_svg(a: &AfterAction) -> anyhow::Result<String> {
             "Reliability of the odds: no closed task to score yet".to_string()
         } else {
             format!(
-                "Reliability of the odds: {} closed tasks scored",
-                a.scored_tasks
+                "Reliability of the odds: {} closed task{} scored",
+                a.scored_tasks,
+                if a.scored_tasks == 1 { "" } else { "s" }
             )
         };
         let mut chart = ChartBuilder::on(&root)
