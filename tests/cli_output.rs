@@ -66,6 +66,7 @@ fn every_json_document_says_its_format_and_carries_the_cautions_as_a_list() {
             true,
         ),
         (vec!["report", log, "--json"], true),
+        (vec!["sheet", file, "--json"], true),
         (vec!["check", file, "--json"], false),
     ] {
         let v = json_of(&args);

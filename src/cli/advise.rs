@@ -64,8 +64,10 @@ pub fn run(args: Args) -> CliResult {
         ..AdviseOptions::default()
     };
     let cancel = AtomicBool::new(false);
+    let work = super::progress::Work::spinner("advising (losses, requests)", args.json);
     let advice = advise(&incident, &options, &cancel)
         .map_err(|e| anyhow::anyhow!("{}: {e}", args.file.display()))?;
+    drop(work);
     if args.json {
         super::json::print_pretty(&advice)?;
         return Ok(());

@@ -4,10 +4,11 @@
 //! returning [`CliResult`]. Exit codes: 0 success, 1 bad input (any error a
 //! subcommand returns), 2 usage error (clap).
 
-use clap::{Parser, Subcommand};
+use clap::{CommandFactory, FromArgMatches, Parser, Subcommand};
 use std::process::ExitCode;
 
 pub mod advise;
+pub mod charts;
 pub mod check;
 pub mod dash;
 pub mod generate;
@@ -15,10 +16,13 @@ pub mod input;
 pub mod json;
 pub mod odds;
 pub mod plan;
+pub mod progress;
 pub mod record;
 pub mod render;
 pub mod replay;
 pub mod report;
+pub mod sheet;
+pub mod shell;
 pub mod simulate;
 pub mod start;
 pub mod timeline;
@@ -75,14 +79,39 @@ pub enum Command {
     Report(report::Args),
     /// Fragile units, resource requests and life-safety notes.
     Advise(advise::Args),
+    /// The briefing sheet: per task its units, odds and notes; reserve.
+    Sheet(sheet::Args),
+    /// Print a shell completion script (bash, zsh, fish, …) on stdout.
+    Completions(shell::CompletionsArgs),
+    /// Print the manual page (roff) on stdout, or write every page with --dir.
+    Man(shell::ManArgs),
     /// Write a seeded, invented incident of a given size (benchmarks, tests).
     #[command(hide = true)]
     Generate(generate::Args),
 }
 
+/// What `--version` prints after the program's name: the program's version
+/// and the log format it writes (a log of a newer format is refused).
+pub fn version_text() -> String {
+    format!(
+        "{} (log format {})",
+        env!("CARGO_PKG_VERSION"),
+        crate::log::FORMAT_VERSION
+    )
+}
+
+/// The clap command with the full version text; the parser, the completions
+/// and the manual pages all come from it.
+pub fn command() -> clap::Command {
+    Cli::command().version(version_text())
+}
+
 /// Entry point of the binary.
 pub fn main() -> ExitCode {
-    let cli = match Cli::try_parse() {
+    let parsed = command()
+        .try_get_matches()
+        .and_then(|mut m| Cli::from_arg_matches_mut(&mut m));
+    let cli = match parsed {
         Ok(cli) => cli,
         Err(e) => {
             let code = if e.use_stderr() { 2 } else { 0 };
@@ -131,6 +160,9 @@ pub fn run(command: Command) -> CliResult {
         Command::Timeline(a) => timeline::run(a),
         Command::Report(a) => report::run(a),
         Command::Advise(a) => advise::run(a),
+        Command::Sheet(a) => sheet::run(a),
+        Command::Completions(a) => shell::run_completions(a),
+        Command::Man(a) => shell::run_man(a),
         Command::Generate(a) => generate::run(a),
     }
 }

@@ -261,8 +261,13 @@ pub fn run(args: Args) -> CliResult {
         ..SolveOptions::default()
     };
     let cancel = AtomicBool::new(false);
-    let report = solve(&incident, &options, &cancel, &mut |_| {})
-        .map_err(|e| anyhow::anyhow!("{}: {e}", args.file.display()))?;
+    let work = (args.budget_ms > 1000).then(|| {
+        let what = format!("planning (budget {:.1} s)", args.budget_ms as f64 / 1e3);
+        super::progress::Work::spinner(&what, args.json)
+    });
+    let report = solve(&incident, &options, &cancel, &mut |_| {});
+    drop(work);
+    let report = report.map_err(|e| anyhow::anyhow!("{}: {e}", args.file.display()))?;
     let before = task_views(&incident, &incident.placement);
     let after = task_views(&incident, &report.placement);
     let compare = args

@@ -18,6 +18,12 @@ pub struct Args {
     /// Who records it (default: $USER, else "operator").
     #[arg(long)]
     pub by: Option<String>,
+    /// Stamp the record with this time (RFC 3339, e.g.
+    /// 2026-03-09T03:05:00Z) instead of now, for recording a drill or an
+    /// exercise after the fact. Refused when earlier than the log's last
+    /// record; with `-`, every line gets this time.
+    #[arg(long, value_name = "RFC3339", value_parser = parse_at)]
+    pub at: Option<chrono::DateTime<chrono::Utc>>,
     /// Print one JSON document: for each event, its stdin line, and the
     /// record written (`seq`, `at`, `kind`) or the reason it was refused.
     #[arg(long)]
@@ -35,6 +41,13 @@ struct Outcome {
     kind: Option<&'static str>,
     event: Option<String>,
     error: Option<String>,
+}
+
+/// Parses `--at`: an RFC 3339 time, kept in UTC.
+pub fn parse_at(text: &str) -> Result<chrono::DateTime<chrono::Utc>, String> {
+    chrono::DateTime::parse_from_rfc3339(text.trim())
+        .map(|t| t.with_timezone(&chrono::Utc))
+        .map_err(|e| format!("not an RFC 3339 time (e.g. 2026-03-09T03:05:00Z): {e}"))
 }
 
 /// Parses one event from YAML or JSON text.
@@ -56,7 +69,7 @@ pub fn run(args: Args) -> CliResult {
     let mut writer = LogWriter::open(&args.log)?;
     if args.event != "-" {
         let event = parse_event(&args.event).map_err(|e| anyhow::anyhow!("{log}: event: {e}"))?;
-        let record = writer.append(&by, event)?;
+        let record = writer.append_at(&by, event, args.at)?;
         warn_repair(&writer, &log);
         if args.json {
             super::json::print_rows(&[recorded(1, &record)])?;
@@ -77,7 +90,11 @@ pub fn run(args: Args) -> CliResult {
         }
         let outcome = parse_event(text)
             .map_err(|e| format!("event: {e}"))
-            .and_then(|ev| writer.append(&by, ev).map_err(|e| e.to_string()));
+            .and_then(|ev| {
+                writer
+                    .append_at(&by, ev, args.at)
+                    .map_err(|e| e.to_string())
+            });
         match outcome {
             Ok(r) => {
                 ok += 1;

@@ -16,6 +16,10 @@ pub struct Args {
     /// Who opens the log (default: $USER, else "operator").
     #[arg(long)]
     pub by: Option<String>,
+    /// Stamp the opening record with this time (RFC 3339) instead of now,
+    /// for recording a drill or an exercise after the fact.
+    #[arg(long, value_name = "RFC3339", value_parser = super::record::parse_at)]
+    pub at: Option<chrono::DateTime<chrono::Utc>>,
     /// Print what was created as one JSON document.
     #[arg(long)]
     pub json: bool,
@@ -23,7 +27,7 @@ pub struct Args {
 
 pub fn run(args: Args) -> CliResult {
     let incident = load_state(&args.file)?;
-    let writer = LogWriter::create(&args.log, &incident, &actor(args.by))?;
+    let writer = LogWriter::create_at(&args.log, &incident, &actor(args.by), args.at)?;
     let s = writer.state();
     if args.json {
         let v = serde_json::json!({

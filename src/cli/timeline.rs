@@ -69,13 +69,24 @@ pub fn run(args: Args) -> CliResult {
         row.proposal = rp.replan(&mut walker, first.seq);
     }
     mode.row(&mut out, &walker, &row, true)?;
+    let work = replanner.is_some().then(|| {
+        super::progress::Work::new(
+            "re-planning after each record",
+            rest.len() as u64,
+            args.json,
+        )
+    });
     for r in rest {
         let mut row = walker.step(r).map_err(|e| e.in_file(&name))?;
         if let Some(rp) = &mut replanner {
             row.proposal = rp.replan(&mut walker, r.seq);
         }
         mode.row(&mut out, &walker, &row, false)?;
+        if let Some(w) = &work {
+            w.inc(1);
+        }
     }
+    drop(work);
     mode.footer(&mut out)?;
     out.flush()?;
     Ok(())

@@ -100,6 +100,16 @@ pub fn below_minimum(task: &str, crew: Option<(usize, u32)>) -> String {
     }
 }
 
+/// A task short of its secure level while idle reserve units could add to
+/// its binding trait (an idle unit while a task it could lift stays short is
+/// worth a look). `secure` comes already written (see `odds::text`).
+pub fn reserve_could_help(task: &str, secure: &str, trait_id: &str, units: &[&str]) -> String {
+    format!(
+        "{task} is below its secure level ({secure}) and these reserve units could add to its {trait_id}: {} (see `oddsboard plan`).",
+        units.join(", ")
+    )
+}
+
 /// A task with needs and nobody on it.
 pub fn no_units(task: &str) -> String {
     format!("{task} has needs and no units placed: its odds are 0.")

@@ -61,6 +61,16 @@ pub enum LogError {
     /// (records are one per line, so its line is its sequence number).
     #[error("record {seq} (line {seq}): {message}")]
     Refused { seq: u64, message: String },
+    /// A time given for a new record that is earlier than the last record's.
+    #[error(
+        "{file}: the time given ({at}) is earlier than record {seq} ({last}); a log's times never go backwards"
+    )]
+    TimeBackwards {
+        file: String,
+        at: String,
+        seq: u64,
+        last: String,
+    },
     /// An event offered for appending that does not apply.
     #[error("{file}: `{kind}` refused: {reason}")]
     EventRefused {

@@ -13,7 +13,7 @@ use super::read::{TornTail, parse_lines, parse_log};
 use super::replay::{Replay, fold};
 use super::snapshot;
 use crate::model::Incident;
-use chrono::Utc;
+use chrono::{DateTime, Utc};
 use std::fs::{File, OpenOptions};
 use std::io::{Read, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
@@ -48,6 +48,8 @@ pub struct LogWriter {
     /// dashboard replays the log from it without loading the snapshot again).
     first_state: Option<Incident>,
     last_seq: u64,
+    /// Time of the last record this writer knows of.
+    last_at: Option<DateTime<Utc>>,
     end_offset: u64,
     repaired: Option<TornTail>,
 }
@@ -68,6 +70,17 @@ impl LogWriter {
     /// Creates a new log whose first record is `incident`; refuses to
     /// overwrite an existing file. The file gets the user's umask.
     pub fn create(path: &Path, incident: &Incident, by: &str) -> Result<LogWriter, LogError> {
+        Self::create_at(path, incident, by, None)
+    }
+
+    /// [`LogWriter::create`] with the snapshot stamped `at` instead of now
+    /// (recording a drill or an exercise after the fact).
+    pub fn create_at(
+        path: &Path,
+        incident: &Incident,
+        by: &str,
+        at: Option<DateTime<Utc>>,
+    ) -> Result<LogWriter, LogError> {
         let name = path.display().to_string();
         let file_form = snapshot::to_file(incident);
         // The state is what a reader will rebuild from the snapshot.
@@ -93,7 +106,7 @@ impl LogWriter {
             })?;
         let record = Record {
             seq: 1,
-            at: log_time(Utc::now()),
+            at: log_time(at.unwrap_or_else(Utc::now)),
             by: by.to_string(),
             event: Event::IncidentOpened {
                 format: FORMAT_VERSION,
@@ -120,6 +133,7 @@ impl LogWriter {
             first_state: Some(state.clone()),
             state,
             last_seq: 1,
+            last_at: Some(record.at),
             end_offset: line.len() as u64,
             repaired: None,
         })
@@ -155,6 +169,7 @@ impl LogWriter {
             first_state: Some(first_state),
             state,
             last_seq: contents.records.last().map_or(0, |r| r.seq),
+            last_at: contents.records.last().map(|r| r.at),
             end_offset: contents.end_offset,
             repaired: None,
         })
@@ -228,6 +243,9 @@ impl LogWriter {
             self.repaired = Some(torn);
         }
         self.state = state;
+        if let Some(r) = parsed.records.last() {
+            self.last_at = Some(r.at);
+        }
         self.last_seq += parsed.records.len() as u64;
         self.end_offset = parsed.end;
         Ok(parsed.records)
@@ -248,12 +266,36 @@ impl LogWriter {
     /// the log (including what others appended). Returns only once the record
     /// is synced to disk. A refused event leaves the file untouched.
     pub fn append(&mut self, by: &str, event: Event) -> Result<Record, LogError> {
+        self.append_at(by, event, None)
+    }
+
+    /// [`LogWriter::append`] with the record stamped `at` instead of now,
+    /// for recording a drill after the fact. Refused when `at` is earlier
+    /// than the last record's time (including what other writers appended):
+    /// a log's times never go backwards.
+    pub fn append_at(
+        &mut self,
+        by: &str,
+        event: Event,
+        at: Option<DateTime<Utc>>,
+    ) -> Result<Record, LogError> {
         let file = self.file.try_clone().map_err(|source| LogError::Io {
             file: self.name.clone(),
             source,
         })?;
         let _lock = Locked::take(&file, &self.name)?;
         self.catch_up()?;
+        let at = log_time(at.unwrap_or_else(Utc::now));
+        if let Some(last) = self.last_at
+            && at < last
+        {
+            return Err(LogError::TimeBackwards {
+                file: self.name.clone(),
+                at: at.to_rfc3339_opts(chrono::SecondsFormat::Millis, true),
+                seq: self.last_seq,
+                last: last.to_rfc3339_opts(chrono::SecondsFormat::Millis, true),
+            });
+        }
         let mut next = self.state.clone();
         apply(&mut next, &event).map_err(|e| LogError::EventRefused {
             file: self.name.clone(),
@@ -262,7 +304,7 @@ impl LogWriter {
         })?;
         let record = Record {
             seq: self.last_seq + 1,
-            at: log_time(Utc::now()),
+            at,
             by: by.to_string(),
             event,
         };
@@ -282,6 +324,7 @@ impl LogWriter {
         }
         self.state = next;
         self.last_seq = record.seq;
+        self.last_at = Some(record.at);
         self.end_offset += line.len() as u64;
         Ok(record)
     }

@@ -1,0 +1,222 @@
+//! `record --at` and `start --at` for recording drills after the fact, and
+//! the bundled drill recorded with them.
+
+use assert_cmd::Command;
+use chrono::{DateTime, Utc};
+use std::path::Path;
+
+fn oddsboard() -> Command {
+    Command::cargo_bin("oddsboard").expect("binary")
+}
+
+fn times(log: &Path) -> Vec<DateTime<Utc>> {
+    std::fs::read_to_string(log)
+        .unwrap()
+        .lines()
+        .map(|l| {
+            let v: serde_json::Value = serde_json::from_str(l).unwrap();
+            v["at"].as_str().unwrap().parse().unwrap()
+        })
+        .collect()
+}
+
+const YAML: &str = "incident: { name: Invented drill, started: 2026-05-14T09:20:00Z }\n\
+    traits: [ { id: water, unit: L/min } ]\n\
+    unit_types: [ { id: engine, traits: { water: { mean: 1900, sd: 250 } } } ]\n\
+    units: [ { id: E1, type: engine }, { id: E2, type: engine } ]\n\
+    tasks: [ { id: T1, tier: life, needs: { water: 3000 } } ]\n";
+
+#[test]
+fn at_stamps_records_and_refuses_to_go_backwards() {
+    let dir = tempfile::tempdir().unwrap();
+    let yaml = dir.path().join("drill.yaml");
+    std::fs::write(&yaml, YAML).unwrap();
+    let log = dir.path().join("drill.log");
+    oddsboard()
+        .args(["start", "--at", "2026-05-14T09:20:00Z", "--log"])
+        .arg(&log)
+        .arg(&yaml)
+        .assert()
+        .success();
+    // A time with an offset is kept in UTC: 10:35+01:00 is 09:35Z.
+    oddsboard()
+        .arg("record")
+        .arg(&log)
+        .args([
+            "{kind: moved, unit: E1, to: T1}",
+            "--at",
+            "2026-05-14T10:35:00+01:00",
+        ])
+        .assert()
+        .success();
+    let before = std::fs::read(&log).unwrap();
+    // Earlier than the last record: refused, the log untouched (exit 1).
+    oddsboard()
+        .arg("record")
+        .arg(&log)
+        .args([
+            "{kind: moved, unit: E2, to: T1}",
+            "--at",
+            "2026-05-14T09:30:00Z",
+        ])
+        .assert()
+        .code(1)
+        .stderr(predicates::str::contains("earlier than record 2"));
+    assert_eq!(std::fs::read(&log).unwrap(), before, "refused, yet written");
+    // The same time as the last record is not backwards.
+    oddsboard()
+        .arg("record")
+        .arg(&log)
+        .args([
+            "{kind: moved, unit: E2, to: T1}",
+            "--at",
+            "2026-05-14T09:35:00Z",
+        ])
+        .assert()
+        .success();
+    // Not a time: a usage error, nothing written.
+    let before = std::fs::read(&log).unwrap();
+    oddsboard()
+        .arg("record")
+        .arg(&log)
+        .args(["{kind: note, text: x}", "--at", "half past nine"])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("RFC 3339"));
+    assert_eq!(std::fs::read(&log).unwrap(), before);
+    let t = times(&log);
+    let want: Vec<DateTime<Utc>> = [
+        "2026-05-14T09:20:00Z",
+        "2026-05-14T09:35:00Z",
+        "2026-05-14T09:35:00Z",
+    ]
+    .iter()
+    .map(|s| s.parse().unwrap())
+    .collect();
+    assert_eq!(t, want);
+    // Without --at a live record is stamped now, after the drill's times.
+    oddsboard()
+        .arg("record")
+        .arg(&log)
+        .arg("{kind: note, text: live again}")
+        .assert()
+        .success();
+    assert!(*times(&log).last().unwrap() > want[2]);
+}
+
+#[test]
+fn stdin_events_all_take_the_given_time() {
+    let dir = tempfile::tempdir().unwrap();
+    let yaml = dir.path().join("drill.yaml");
+    std::fs::write(&yaml, YAML).unwrap();
+    let log = dir.path().join("drill.log");
+    oddsboard()
+        .args(["start", "--at", "2026-05-14T09:20:00Z", "--log"])
+        .arg(&log)
+        .arg(&yaml)
+        .assert()
+        .success();
+    oddsboard()
+        .arg("record")
+        .arg(&log)
+        .args(["-", "--at", "2026-05-14T09:21:30Z"])
+        .write_stdin("{kind: note, text: one}\n{kind: note, text: two}\n")
+        .assert()
+        .success();
+    let t = times(&log);
+    assert_eq!(t.len(), 3);
+    assert!(
+        t[1..]
+            .iter()
+            .all(|x| x.to_rfc3339() == "2026-05-14T09:21:30+00:00")
+    );
+}
+
+/// The bundled drill: its records are stamped over the first two hours of
+/// the scenario, in order, so replay, timeline and report read like an
+/// incident and not like a script run in seconds.
+#[test]
+fn the_bundled_drill_has_a_believable_clock() {
+    let log =
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-incidents/drill-warehouse-fire.log");
+    let t = times(&log);
+    assert!(t.len() > 10, "the drill has {} records", t.len());
+    for w in t.windows(2) {
+        assert!(w[1] > w[0], "times do not increase: {} then {}", w[0], w[1]);
+    }
+    let span = *t.last().unwrap() - t[0];
+    assert!(span > chrono::Duration::hours(1), "spans only {span}");
+    // Within the first two hours from the scenario's `started` time.
+    let first: serde_json::Value = serde_json::from_str(
+        std::fs::read_to_string(&log)
+            .unwrap()
+            .lines()
+            .next()
+            .unwrap(),
+    )
+    .unwrap();
+    let started: DateTime<Utc> = first["event"]["incident"]["incident"]["started"]
+        .as_str()
+        .expect("the drill says when it started")
+        .parse()
+        .unwrap();
+    assert!(t[0] >= started);
+    assert!(*t.last().unwrap() <= started + chrono::Duration::hours(2));
+    // And it still loads: every record applies to the state before it.
+    oddsboard().arg("check").arg(&log).assert().success();
+}
+
+/// Two writers on one log: a time earlier than what the other writer
+/// appended is refused once this writer has caught up, and nothing is
+/// written.
+#[test]
+fn another_writers_later_record_counts() {
+    use oddsboard::log::{Event, LogError, LogWriter};
+    let dir = tempfile::tempdir().unwrap();
+    let log = dir.path().join("drill.log");
+    let incident = oddsboard::model::parse_incident_str(YAML, "drill.yaml").unwrap();
+    let t = |s: &str| s.parse::<DateTime<Utc>>().unwrap();
+    let note = |text: &str| -> Event {
+        serde_yaml::from_str(&format!("{{kind: note, text: {text}}}")).unwrap()
+    };
+    let mut a =
+        LogWriter::create_at(&log, &incident, "ic", Some(t("2026-05-14T09:20:00Z"))).unwrap();
+    let mut b = LogWriter::open(&log).unwrap();
+    b.append_at("radio", note("later"), Some(t("2026-05-14T10:00:00Z")))
+        .unwrap();
+    let before = std::fs::read(&log).unwrap();
+    let err = a
+        .append_at("ic", note("earlier"), Some(t("2026-05-14T09:30:00Z")))
+        .unwrap_err();
+    assert!(
+        matches!(err, LogError::TimeBackwards { seq: 2, .. }),
+        "{err}"
+    );
+    assert_eq!(std::fs::read(&log).unwrap(), before);
+    a.append_at("ic", note("after"), Some(t("2026-05-14T10:05:00Z")))
+        .unwrap();
+    assert_eq!(times(&log).len(), 3);
+}
+
+/// The bundled drill is exactly what its script records: every record's
+/// time is given, so the bytes (checksums included) are reproducible.
+#[test]
+fn the_drill_script_makes_the_bundled_log() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("drill.log");
+    let status = std::process::Command::new("sh")
+        .arg(root.join("sample-incidents/drill-warehouse-fire.sh"))
+        .arg(&out)
+        .env("ODDSBOARD", assert_cmd::cargo::cargo_bin("oddsboard"))
+        .status()
+        .expect("sh runs");
+    assert!(status.success());
+    let made = std::fs::read_to_string(&out).unwrap();
+    let bundled =
+        std::fs::read_to_string(root.join("sample-incidents/drill-warehouse-fire.log")).unwrap();
+    assert_eq!(
+        made, bundled,
+        "re-run the script to refresh the bundled drill"
+    );
+}
