@@ -1008,65 +1008,15 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
             }
         }
     }
-    for (t, task) in incident.tasks.iter().enumerate() {
-        let Some(max) = task.max_units else { continue };
-        let pinned = incident.pins.values().filter(|&&pt| pt == t).count();
-        if pinned as u64 > u64::from(max) {
-            sink.error(
-                format!("tasks[{t}].max_units"),
-                format!(
-                    "{pinned} units are pinned to `{}` but its max_units is {max}",
-                    task.id
-                ),
-            );
-        }
-        let placed = incident.placement.units_on(t).count();
-        if placed as u64 > u64::from(max) {
-            sink.error(
-                format!("tasks[{t}].max_units"),
-                format!(
-                    "{placed} units are placed on `{}` but its max_units is {max}",
-                    task.id
-                ),
-            );
-        }
-    }
-    // Pinned units must go to their tasks, so only available unpinned units
-    // can make up the reserve.
-    let available = incident
-        .units
-        .iter()
-        .filter(|u| u.status == UnitStatus::Available)
-        .count();
-    let free = available.saturating_sub(incident.pins.len());
-    if reserve_min as usize > free {
-        sink.error(
-            "incident.reserve_min",
-            format!(
-                "reserve_min is {reserve_min} but only {free} units are available and not pinned"
-            ),
-        );
+    for v in crate::rules::count_violations(&incident, true) {
+        sink.error(v.field, v.message);
     }
     incident
 }
 
 /// Why unit `u` may not stand on (or be pinned to) task `t`, if it may not.
 fn placement_problem(incident: &Incident, u: UnitIdx, t: TaskIdx) -> Option<String> {
-    let unit = &incident.units[u];
-    let task = &incident.tasks[t];
-    if unit.status == UnitStatus::OutOfService {
-        Some("the unit is out of service".to_string())
-    } else if let Some(outcome) = task.outcome {
-        Some(format!("the task is closed ({})", outcome.as_str()))
-    } else if !task.accepts_type(unit.type_idx) {
-        Some(format!(
-            "the task does not accept unit type `{}`",
-            incident
-                .unit_types
-                .get(unit.type_idx)
-                .map_or("?", |ty| ty.id.as_str())
-        ))
-    } else {
-        None
-    }
+    crate::rules::may_go(incident, u, t)
+        .err()
+        .map(|r| r.reason(incident))
 }

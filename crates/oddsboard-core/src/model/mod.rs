@@ -281,15 +281,10 @@ impl Incident {
     pub fn task_idx(&self, id: &str) -> Option<TaskIdx> {
         self.tasks.iter().position(|t| t.id == id)
     }
-    pub fn rho_of_unit(&self, u: UnitIdx) -> f64 {
-        self.unit_types[self.units[u].type_idx].rho
-    }
     /// Can unit `u` be placed on task `t` at all (status, open task, accepts)?
-    /// Counts (`max_units`, `reserve_min`) and pins are checked elsewhere.
+    /// The rule is [`crate::rules::may_go`]; counts and pins are its siblings.
     pub fn may_place(&self, u: UnitIdx, t: TaskIdx) -> bool {
-        let unit = &self.units[u];
-        let task = &self.tasks[t];
-        unit.status == UnitStatus::Available && task.is_open() && task.accepts_type(unit.type_idx)
+        crate::rules::can_go(self, u, t)
     }
 
     /// Removes a unit from the roster (lost), keeping placement and pins
