@@ -5,7 +5,7 @@
 use super::app::AppState;
 use super::board::{place_name, task_order};
 use super::form::{Field, Form, FormKind};
-use crate::log::{Event, Move as MoveSpec, OutcomeValue, StatusValue};
+use crate::log::{Event, Move as MoveSpec, OutcomeValue};
 use crate::model::file::{RatingFile as RatingSpec, UnitFile as UnitSpec};
 use crate::model::{Incident, Tier, UnitStatus};
 
@@ -366,138 +366,7 @@ pub fn move_spec(inc: &Incident, m: &super::board::ProposedMove) -> MoveSpec {
 }
 
 /// Events that undo `event` on the incident as it was before it, or why it
-/// cannot be undone.
+/// cannot be undone: [`Event::inverse`], beside `log::apply` in the core.
 pub fn compensation(inc: &Incident, event: &Event) -> Result<Vec<Event>, String> {
-    let unit_idx = |id: &str| inc.unit_idx(id).ok_or_else(|| format!("unknown unit {id}"));
-    match event {
-        Event::UnitLost { unit, .. } => {
-            let u = unit_idx(unit)?;
-            let un = &inc.units[u];
-            let traits = inc
-                .traits
-                .iter()
-                .zip(&un.ratings)
-                .map(|(t, r)| {
-                    (
-                        t.id.clone(),
-                        RatingSpec {
-                            mean: Some(r.mean),
-                            sd: Some(r.sd),
-                        },
-                    )
-                })
-                .collect();
-            let mut out = vec![Event::UnitAdded {
-                unit: UnitSpec {
-                    id: unit.clone(),
-                    unit_type: inc.unit_types[un.type_idx].id.clone(),
-                    traits,
-                    status: None,
-                },
-            }];
-            if un.status == UnitStatus::OutOfService {
-                out.push(Event::UnitStatus {
-                    unit: unit.clone(),
-                    status: StatusValue::OutOfService,
-                });
-            }
-            if let Some(t) = inc.placement.get(u) {
-                out.push(Event::Moved {
-                    unit: unit.clone(),
-                    to: Some(inc.tasks[t].id.clone()),
-                });
-            }
-            if let Some(&t) = inc.pins.get(&u) {
-                out.push(Event::Pinned {
-                    unit: unit.clone(),
-                    task: inc.tasks[t].id.clone(),
-                });
-            }
-            Ok(out)
-        }
-        Event::UnitAdded { unit } => Ok(vec![Event::UnitLost {
-            unit: unit.id.clone(),
-            reason: Some("undo: added in error".into()),
-        }]),
-        Event::UnitRerated { unit, trait_id, .. } => {
-            let u = unit_idx(unit)?;
-            let k = inc.trait_idx(trait_id).ok_or("unknown trait")?;
-            let r = inc.units[u].ratings[k];
-            Ok(vec![Event::UnitRerated {
-                unit: unit.clone(),
-                trait_id: trait_id.clone(),
-                mean: Some(r.mean),
-                sd: Some(r.sd),
-            }])
-        }
-        Event::NeedChanged { task, trait_id, .. } => {
-            let t = inc.task_idx(task).ok_or("unknown task")?;
-            let k = inc.trait_idx(trait_id).ok_or("unknown trait")?;
-            let n = inc.tasks[t].needs[k];
-            Ok(vec![Event::NeedChanged {
-                task: task.clone(),
-                trait_id: trait_id.clone(),
-                need: n.need,
-                sd: Some(n.sd),
-            }])
-        }
-        Event::TaskClosed { task, .. } => Err(format!(
-            "closing {task} cannot be undone (the log has no reopen); add a new task instead"
-        )),
-        Event::Pinned { unit, .. } | Event::Unpinned { unit } => {
-            let u = unit_idx(unit)?;
-            Ok(vec![match inc.pins.get(&u) {
-                Some(&t) => Event::Pinned {
-                    unit: unit.clone(),
-                    task: inc.tasks[t].id.clone(),
-                },
-                None => Event::Unpinned { unit: unit.clone() },
-            }])
-        }
-        Event::Moved { unit, .. } => {
-            let u = unit_idx(unit)?;
-            Ok(vec![Event::Moved {
-                unit: unit.clone(),
-                to: inc.placement.get(u).map(|t| inc.tasks[t].id.clone()),
-            }])
-        }
-        Event::PlanAccepted { moves } => Ok(vec![Event::PlanAccepted {
-            moves: moves
-                .iter()
-                .map(|m| MoveSpec {
-                    unit: m.unit.clone(),
-                    from: m.to.clone(),
-                    to: m.from.clone(),
-                })
-                .collect(),
-        }]),
-        Event::Note { text } => Ok(vec![Event::Note {
-            text: format!("retracted: {text}"),
-        }]),
-        Event::UnitStatus { unit, .. } => {
-            let u = unit_idx(unit)?;
-            let status = match inc.units[u].status {
-                UnitStatus::Available => StatusValue::Available,
-                UnitStatus::OutOfService => StatusValue::OutOfService,
-            };
-            let mut out = vec![Event::UnitStatus {
-                unit: unit.clone(),
-                status,
-            }];
-            if let Some(t) = inc.placement.get(u) {
-                out.push(Event::Moved {
-                    unit: unit.clone(),
-                    to: Some(inc.tasks[t].id.clone()),
-                });
-            }
-            Ok(out)
-        }
-        Event::TaskAdded { task } => Err(format!(
-            "adding {} cannot be undone (the log has no task removal); close it instead",
-            task.id
-        )),
-        Event::PlanProposed { .. } | Event::PlanRejected {} | Event::IncidentOpened { .. } => {
-            Err("a proposal or a rejection changes nothing to undo".into())
-        }
-    }
+    event.inverse(inc).map_err(|e| e.to_string())
 }
