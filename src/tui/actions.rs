@@ -17,14 +17,13 @@ pub struct UndoEntry {
 }
 
 fn unit_options(inc: &Incident, only_available: bool) -> Vec<(String, String)> {
-    inc.units
-        .iter()
-        .enumerate()
+    inc.roster()
         .filter(|(_, u)| !only_available || u.status == UnitStatus::Available)
         .map(|(i, u)| {
             let ty = &inc.unit_types[u.type_idx].id;
             let at = match u.status {
                 UnitStatus::OutOfService => "out of service".to_string(),
+                UnitStatus::Lost => "lost".to_string(),
                 UnitStatus::Available => match inc.placement.get(i) {
                     Some(_) => format!("on {}", place_name(inc, inc.placement.get(i))),
                     None => "in reserve".to_string(),
@@ -66,7 +65,7 @@ pub fn open_form(state: &AppState, kind: FormKind) -> Result<Form, String> {
     let selected = state.selected_task().map(|t| inc.tasks[t].id.clone());
     let fields = match kind {
         FormKind::Lost => {
-            if inc.units.is_empty() {
+            if inc.roster_len() == 0 {
                 return Err("no units on the roster".into());
             }
             vec![
@@ -91,7 +90,7 @@ pub fn open_form(state: &AppState, kind: FormKind) -> Result<Form, String> {
             ]
         }
         FormKind::Rerate => {
-            if inc.units.is_empty() {
+            if inc.roster_len() == 0 {
                 return Err("no units on the roster".into());
             }
             vec![

@@ -17,6 +17,8 @@ use crate::model::{
 pub enum Refusal {
     /// The unit is out of service.
     OutOfService,
+    /// The unit was lost (a tombstone, kept so indices stay stable).
+    Lost,
     /// The task is closed.
     Closed(Outcome),
     /// The task does not accept the unit's type.
@@ -28,6 +30,7 @@ impl Refusal {
     pub fn reason(self, inc: &Incident) -> String {
         match self {
             Refusal::OutOfService => "the unit is out of service".into(),
+            Refusal::Lost => "the unit was lost".into(),
             Refusal::Closed(o) => format!("the task is closed ({})", o.as_str()),
             Refusal::TypeNotAccepted(ty) => format!(
                 "the task does not accept unit type `{}`",
@@ -51,6 +54,7 @@ pub fn may_go(inc: &Incident, u: UnitIdx, t: TaskIdx) -> Result<(), Refusal> {
     match unit.status {
         UnitStatus::Available => {}
         UnitStatus::OutOfService => return Err(Refusal::OutOfService),
+        UnitStatus::Lost => return Err(Refusal::Lost),
     }
     if let Some(o) = task.outcome {
         return Err(Refusal::Closed(o));
