@@ -127,6 +127,21 @@ pub fn parse_incident_str(text: &str, file: &str) -> Result<Incident, LoadError>
     }
 }
 
+/// Validates an incident already in the file's shape (a log's snapshot,
+/// read from its JSON record) with the checks of meaning the file loader
+/// makes, without going back to text: the record's own decoder has already
+/// refused unknown fields and wrong types. Diagnostics carry paths, no lines.
+pub fn validate_file(f: &IncidentFile, file: &str) -> Result<Incident, LoadError> {
+    let locator = Locator::new("");
+    let mut sink = Sink::new(file, &locator);
+    let incident = convert(f, &mut sink);
+    if sink.out.is_empty() {
+        Ok(incident)
+    } else {
+        Err(LoadError::Invalid(sink.finish()))
+    }
+}
+
 /// A serde_yaml error on the whole text (syntax, limits) as a diagnostic.
 fn yaml_error(file: &str, e: &serde_yaml::Error) -> Diagnostic {
     let location = e.location();
