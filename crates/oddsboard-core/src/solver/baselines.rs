@@ -35,7 +35,7 @@ fn coverage(inc: &Incident, t: TaskIdx, tally: &TaskTally, lambda: f64) -> f64 {
         .enumerate()
         .filter(|(_, n)| n.counts())
         .map(|(k, n)| {
-            let sd = (tally.unit_var(k) + n.sd * n.sd).sqrt();
+            let sd = crate::odds::total_sd(tally.unit_var(k), n.sd);
             let have = tally.mean(k) - lambda * sd;
             if n.need > 0.0 {
                 have / n.need
