@@ -8,6 +8,7 @@ use super::form::{Field, Form, FormKind};
 use crate::log::{Event, Move as MoveSpec, OutcomeValue};
 use crate::model::file::{RatingFile as RatingSpec, UnitFile as UnitSpec};
 use crate::model::{Incident, Tier, UnitStatus};
+use crate::rules;
 
 /// An action the operator may undo, with the events that undo it.
 #[derive(Debug, Clone, PartialEq)]
@@ -298,8 +299,11 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
                 return Ok(vec![Event::Unpinned { unit }]);
             }
             let t = inc.task_idx(&task).ok_or((1, "unknown task".to_string()))?;
-            if !inc.may_place(u, t) {
-                return Err((1, format!("{task} does not take {unit}'s type")));
+            if let Err(r) = rules::may_go(inc, u, t) {
+                return Err((
+                    1,
+                    format!("{unit} cannot be pinned to {task}: {}", r.reason(inc)),
+                ));
             }
             Ok(vec![Event::Pinned { unit, task }])
         }
@@ -316,12 +320,12 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
                 return Err((1, format!("{unit} is already there")));
             }
             if let Some(t) = to_idx {
-                if !inc.may_place(u, t) {
-                    return Err((1, format!("{to} does not take {unit}'s type")));
+                if let Err(r) = rules::may_go(inc, u, t) {
+                    return Err((1, format!("{unit} cannot go to {to}: {}", r.reason(inc))));
                 }
                 let task = &inc.tasks[t];
-                let on = inc.placement.units_on(t).count() as u32;
-                if task.max_units.is_some_and(|m| on >= m) {
+                let on = inc.placement.units_on(t).count();
+                if !rules::has_room(task, on) {
                     return Err((1, format!("{to} already has its maximum of units")));
                 }
             }
