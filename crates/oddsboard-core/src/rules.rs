@@ -1,7 +1,7 @@
 //! The placement rules (SPEC §2–§3), each written once: where a unit may go,
 //! how many units a task takes, the reserve, and which pins can hold.
 //!
-//! The loader, [`crate::log::apply`], the solver (through
+//! The loader, [`crate::log::apply()`], the solver (through
 //! [`crate::solver::search::Ctx`], which precomputes these answers for its
 //! inner loop), the baselines and the advice all ask this module; none keeps
 //! its own copy. To add a constraint, add it here and make it refuse with a
@@ -324,6 +324,14 @@ placement: { E1: T1 }
         let r = may_go(&inc, 3, 0).expect_err("boat on T1");
         assert_eq!(r.reason(&inc), "the task does not accept unit type `boat`");
         assert!(can_go(&inc, 3, 2));
+        // A lost unit keeps its slot but may go nowhere, and no longer
+        // counts toward the reserve.
+        let mut lost = inc.clone();
+        lost.remove_unit(1);
+        assert_eq!(may_go(&lost, 1, 2), Err(Refusal::Lost));
+        assert_eq!(reserve_count(&lost, &lost.placement), 1);
+        assert_eq!(lost.unit_idx("E2"), None);
+        assert_eq!(lost.unit_slot("E2"), Some(1));
     }
 
     #[test]
