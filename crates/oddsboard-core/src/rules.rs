@@ -1,4 +1,4 @@
-//! The placement rules (SPEC §2–§3), each written once: where a unit may go,
+//! The placement rules (SPEC §3, "Constraints"), each written once: where a unit may go,
 //! how many units a task takes, the reserve, and which pins can hold.
 //!
 //! The loader, [`crate::log::apply()`], the solver (through
