@@ -1,5 +1,6 @@
-//! The placement rules (SPEC §3, "Constraints"), each written once: where a unit may go,
-//! how many units a task takes, the reserve, and which pins can hold.
+//! The placement rules (SPEC §3, "Constraints"), each written once: where a
+//! unit may go, how many units a task takes, the reserve, and which pins can
+//! hold.
 //!
 //! The loader, [`crate::log::apply()`], the solver (through
 //! [`crate::solver::search::Ctx`], which precomputes these answers for its
