@@ -164,3 +164,72 @@ fn a_large_generated_incident_plans() {
     runs(&["plan", p, "--budget-ms", "200", "--json"]);
     runs(&["simulate", p, "--trials", "200", "--json"]);
 }
+
+/// `dash` on the `max_units` 2³²−1 sample, in a real pseudo-terminal
+/// (tmux): the background advice (where the 34 GB allocation used to abort
+/// the process and leave the terminal raw) must appear, and `q` must end
+/// the process with exit code 0. Skips with a message when tmux is absent.
+#[test]
+fn the_dashboard_shows_advice_for_the_largest_max_units() {
+    use std::process::Command as Std;
+    use std::time::{Duration, Instant};
+    if !Std::new("tmux")
+        .arg("-V")
+        .output()
+        .is_ok_and(|o| o.status.success())
+    {
+        eprintln!("tmux not found: skipping the dashboard check");
+        return;
+    }
+    let dir = tempfile::tempdir().expect("tempdir");
+    let file = huge_max_units(dir.path());
+    let log = dir.path().join("huge.log");
+    let rc = dir.path().join("rc");
+    let cmd = format!(
+        "{} dash {} --log {}; echo $? > {}",
+        env!("CARGO_BIN_EXE_oddsboard"),
+        file.display(),
+        log.display(),
+        rc.display()
+    );
+    let name = format!("extreme-dash-{}", std::process::id());
+    let tmux = |args: &[&str]| {
+        Std::new("tmux")
+            .args(args)
+            .env("NO_COLOR", "1")
+            .output()
+            .expect("tmux runs")
+    };
+    let started = tmux(&[
+        "new-session",
+        "-d",
+        "-s",
+        &name,
+        "-x",
+        "160",
+        "-y",
+        "45",
+        &cmd,
+    ]);
+    assert!(started.status.success(), "tmux session starts");
+    let screen =
+        || String::from_utf8_lossy(&tmux(&["capture-pane", "-p", "-t", &name]).stdout).into_owned();
+    let start = Instant::now();
+    let mut last = String::new();
+    while !last.contains("» advice") {
+        if start.elapsed() > Duration::from_secs(120) {
+            tmux(&["kill-session", "-t", &name]);
+            panic!("the advice never showed; the screen:\n{last}");
+        }
+        std::thread::sleep(Duration::from_millis(100));
+        last = screen();
+    }
+    tmux(&["send-keys", "-t", &name, "q"]);
+    let start = Instant::now();
+    while !rc.exists() && start.elapsed() < Duration::from_secs(30) {
+        std::thread::sleep(Duration::from_millis(50));
+    }
+    tmux(&["kill-session", "-t", &name]);
+    let code = std::fs::read_to_string(&rc).expect("the dashboard ended");
+    assert_eq!(code.trim(), "0", "dash exit code");
+}
