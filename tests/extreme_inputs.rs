@@ -1,9 +1,9 @@
-//! Extreme but valid inputs through every command that reads an incident:
-//! the largest `max_units` the file allows, needs of 1e300, and a large
-//! generated incident. Each command must end with a clear output or a clear
-//! error (exit 0 or 1, never an abort or a panic) and print one JSON document
-//! when asked. No timing here: the figures (time, peak memory) are in
-//! docs/performance.md.
+//! Extreme but valid inputs through the commands that read an incident
+//! (check, odds, plan, advise, simulate, and dash in tmux): the largest
+//! `max_units` the file allows, needs of 1e300, and a large generated
+//! incident. Every run must end with exit 0 and its output (never an abort
+//! or a panic) and print one JSON document when asked. No timing here: the
+//! figures (time, peak memory) are in docs/performance.md.
 
 use assert_cmd::Command;
 use oddsboard::model::parse_incident_str;
