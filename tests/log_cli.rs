@@ -31,7 +31,9 @@ fn record_from_stdin_is_all_or_nothing_per_line() {
         .stdout(contains("stdin:2: recorded seq 10: E3 out of service"))
         .stdout(contains("stdin:5: recorded seq 11: note: E3 towed"))
         .stderr(contains("stdin:3: refused:"))
-        .stderr(contains("out of service and cannot be placed"))
+        .stderr(contains(
+            "cannot be placed on T2: the unit is out of service",
+        ))
         .stderr(contains("stdin:6: refused: event:"))
         .stderr(contains("2 of 4 events refused"));
     let c = read_log(&path).expect("read");

@@ -200,7 +200,7 @@ fn refused_events_leave_the_log_byte_identical() {
         ("{kind: moved, unit: E3, to: T9}", "unknown task `T9`"),
         (
             "{kind: moved, unit: C1, to: T1}",
-            "does not accept unit type crane",
+            "does not accept unit type `crane`",
         ),
         ("{kind: moved, unit: E1, to: T2}", "pinned to T1"),
         (

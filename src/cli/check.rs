@@ -114,7 +114,7 @@ pub fn summary(incident: &Incident, is_log: bool) -> String {
         .iter()
         .filter(|u| u.status == UnitStatus::OutOfService)
         .count();
-    let mut units = plural(incident.units.len(), "unit", "units");
+    let mut units = plural(incident.roster_len(), "unit", "units");
     if out_of_service > 0 {
         units.push_str(&format!(" ({out_of_service} out of service)"));
     }

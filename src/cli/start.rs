@@ -34,7 +34,7 @@ pub fn run(args: Args) -> CliResult {
             "log": args.log.display().to_string(),
             "seq": writer.last_seq(),
             "incident": s.name,
-            "units": s.units.len(),
+            "units": s.roster_len(),
             "tasks": s.tasks.len(),
         });
         println!("{v}");
@@ -44,7 +44,7 @@ pub fn run(args: Args) -> CliResult {
         "started {}: seq 1, incident snapshot of {} ({} units, {} tasks)",
         args.log.display(),
         s.name,
-        s.units.len(),
+        s.roster_len(),
         s.tasks.len()
     );
     Ok(())

@@ -5,9 +5,10 @@
 use super::app::AppState;
 use super::board::{place_name, task_order};
 use super::form::{Field, Form, FormKind};
-use crate::log::{Event, Move as MoveSpec, OutcomeValue, StatusValue};
+use crate::log::{Event, Move as MoveSpec, OutcomeValue};
 use crate::model::file::{RatingFile as RatingSpec, UnitFile as UnitSpec};
 use crate::model::{Incident, Tier, UnitStatus};
+use crate::rules;
 
 /// An action the operator may undo, with the events that undo it.
 #[derive(Debug, Clone, PartialEq)]
@@ -17,14 +18,13 @@ pub struct UndoEntry {
 }
 
 fn unit_options(inc: &Incident, only_available: bool) -> Vec<(String, String)> {
-    inc.units
-        .iter()
-        .enumerate()
+    inc.roster()
         .filter(|(_, u)| !only_available || u.status == UnitStatus::Available)
         .map(|(i, u)| {
             let ty = &inc.unit_types[u.type_idx].id;
             let at = match u.status {
                 UnitStatus::OutOfService => "out of service".to_string(),
+                UnitStatus::Lost => "lost".to_string(),
                 UnitStatus::Available => match inc.placement.get(i) {
                     Some(_) => format!("on {}", place_name(inc, inc.placement.get(i))),
                     None => "in reserve".to_string(),
@@ -66,7 +66,7 @@ pub fn open_form(state: &AppState, kind: FormKind) -> Result<Form, String> {
     let selected = state.selected_task().map(|t| inc.tasks[t].id.clone());
     let fields = match kind {
         FormKind::Lost => {
-            if inc.units.is_empty() {
+            if inc.roster_len() == 0 {
                 return Err("no units on the roster".into());
             }
             vec![
@@ -91,7 +91,7 @@ pub fn open_form(state: &AppState, kind: FormKind) -> Result<Form, String> {
             ]
         }
         FormKind::Rerate => {
-            if inc.units.is_empty() {
+            if inc.roster_len() == 0 {
                 return Err("no units on the roster".into());
             }
             vec![
@@ -299,8 +299,11 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
                 return Ok(vec![Event::Unpinned { unit }]);
             }
             let t = inc.task_idx(&task).ok_or((1, "unknown task".to_string()))?;
-            if !inc.may_place(u, t) {
-                return Err((1, format!("{task} does not take {unit}'s type")));
+            if let Err(r) = rules::may_go(inc, u, t) {
+                return Err((
+                    1,
+                    format!("{unit} cannot be pinned to {task}: {}", r.reason(inc)),
+                ));
             }
             Ok(vec![Event::Pinned { unit, task }])
         }
@@ -317,12 +320,12 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
                 return Err((1, format!("{unit} is already there")));
             }
             if let Some(t) = to_idx {
-                if !inc.may_place(u, t) {
-                    return Err((1, format!("{to} does not take {unit}'s type")));
+                if let Err(r) = rules::may_go(inc, u, t) {
+                    return Err((1, format!("{unit} cannot go to {to}: {}", r.reason(inc))));
                 }
                 let task = &inc.tasks[t];
-                let on = inc.placement.units_on(t).count() as u32;
-                if task.max_units.is_some_and(|m| on >= m) {
+                let on = inc.placement.units_on(t).count();
+                if !rules::has_room(task, on) {
                     return Err((1, format!("{to} already has its maximum of units")));
                 }
             }
@@ -366,138 +369,7 @@ pub fn move_spec(inc: &Incident, m: &crate::solver::Move) -> MoveSpec {
 }
 
 /// Events that undo `event` on the incident as it was before it, or why it
-/// cannot be undone.
+/// cannot be undone: [`Event::inverse`], beside `log::apply` in the core.
 pub fn compensation(inc: &Incident, event: &Event) -> Result<Vec<Event>, String> {
-    let unit_idx = |id: &str| inc.unit_idx(id).ok_or_else(|| format!("unknown unit {id}"));
-    match event {
-        Event::UnitLost { unit, .. } => {
-            let u = unit_idx(unit)?;
-            let un = &inc.units[u];
-            let traits = inc
-                .traits
-                .iter()
-                .zip(&un.ratings)
-                .map(|(t, r)| {
-                    (
-                        t.id.clone(),
-                        RatingSpec {
-                            mean: Some(r.mean),
-                            sd: Some(r.sd),
-                        },
-                    )
-                })
-                .collect();
-            let mut out = vec![Event::UnitAdded {
-                unit: UnitSpec {
-                    id: unit.clone(),
-                    unit_type: inc.unit_types[un.type_idx].id.clone(),
-                    traits,
-                    status: None,
-                },
-            }];
-            if un.status == UnitStatus::OutOfService {
-                out.push(Event::UnitStatus {
-                    unit: unit.clone(),
-                    status: StatusValue::OutOfService,
-                });
-            }
-            if let Some(t) = inc.placement.get(u) {
-                out.push(Event::Moved {
-                    unit: unit.clone(),
-                    to: Some(inc.tasks[t].id.clone()),
-                });
-            }
-            if let Some(&t) = inc.pins.get(&u) {
-                out.push(Event::Pinned {
-                    unit: unit.clone(),
-                    task: inc.tasks[t].id.clone(),
-                });
-            }
-            Ok(out)
-        }
-        Event::UnitAdded { unit } => Ok(vec![Event::UnitLost {
-            unit: unit.id.clone(),
-            reason: Some("undo: added in error".into()),
-        }]),
-        Event::UnitRerated { unit, trait_id, .. } => {
-            let u = unit_idx(unit)?;
-            let k = inc.trait_idx(trait_id).ok_or("unknown trait")?;
-            let r = inc.units[u].ratings[k];
-            Ok(vec![Event::UnitRerated {
-                unit: unit.clone(),
-                trait_id: trait_id.clone(),
-                mean: Some(r.mean),
-                sd: Some(r.sd),
-            }])
-        }
-        Event::NeedChanged { task, trait_id, .. } => {
-            let t = inc.task_idx(task).ok_or("unknown task")?;
-            let k = inc.trait_idx(trait_id).ok_or("unknown trait")?;
-            let n = inc.tasks[t].needs[k];
-            Ok(vec![Event::NeedChanged {
-                task: task.clone(),
-                trait_id: trait_id.clone(),
-                need: n.need,
-                sd: Some(n.sd),
-            }])
-        }
-        Event::TaskClosed { task, .. } => Err(format!(
-            "closing {task} cannot be undone (the log has no reopen); add a new task instead"
-        )),
-        Event::Pinned { unit, .. } | Event::Unpinned { unit } => {
-            let u = unit_idx(unit)?;
-            Ok(vec![match inc.pins.get(&u) {
-                Some(&t) => Event::Pinned {
-                    unit: unit.clone(),
-                    task: inc.tasks[t].id.clone(),
-                },
-                None => Event::Unpinned { unit: unit.clone() },
-            }])
-        }
-        Event::Moved { unit, .. } => {
-            let u = unit_idx(unit)?;
-            Ok(vec![Event::Moved {
-                unit: unit.clone(),
-                to: inc.placement.get(u).map(|t| inc.tasks[t].id.clone()),
-            }])
-        }
-        Event::PlanAccepted { moves } => Ok(vec![Event::PlanAccepted {
-            moves: moves
-                .iter()
-                .map(|m| MoveSpec {
-                    unit: m.unit.clone(),
-                    from: m.to.clone(),
-                    to: m.from.clone(),
-                })
-                .collect(),
-        }]),
-        Event::Note { text } => Ok(vec![Event::Note {
-            text: format!("retracted: {text}"),
-        }]),
-        Event::UnitStatus { unit, .. } => {
-            let u = unit_idx(unit)?;
-            let status = match inc.units[u].status {
-                UnitStatus::Available => StatusValue::Available,
-                UnitStatus::OutOfService => StatusValue::OutOfService,
-            };
-            let mut out = vec![Event::UnitStatus {
-                unit: unit.clone(),
-                status,
-            }];
-            if let Some(t) = inc.placement.get(u) {
-                out.push(Event::Moved {
-                    unit: unit.clone(),
-                    to: Some(inc.tasks[t].id.clone()),
-                });
-            }
-            Ok(out)
-        }
-        Event::TaskAdded { task } => Err(format!(
-            "adding {} cannot be undone (the log has no task removal); close it instead",
-            task.id
-        )),
-        Event::PlanProposed { .. } | Event::PlanRejected {} | Event::IncidentOpened { .. } => {
-            Err("a proposal or a rejection changes nothing to undo".into())
-        }
-    }
+    event.inverse(inc).map_err(|e| e.to_string())
 }

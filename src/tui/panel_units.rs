@@ -117,7 +117,7 @@ pub fn lines(state: &AppState) -> Vec<Line<'static>> {
 }
 
 pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
-    let n = state.incident.units.len();
+    let n = state.incident.roster_len();
     let block = Block::bordered().title(format!(" Units ({n}) · * pinned · → moves "));
     frame.render_widget(
         Paragraph::new(lines(state))

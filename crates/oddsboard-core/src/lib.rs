@@ -20,6 +20,8 @@
 //! * [`log`]: the append-only incident log: events, records, replay.
 //! * [`report`]: timeline and after-action report.
 //! * [`advise`]: fragility, resource requests, what-if.
+//! * [`rules`]: where a unit may go, capacities, the reserve, pins — each
+//!   constraint written once.
 //! * [`safety`]: the cautions and contextual safety notes, worded once.
 //!
 //! Decision support only: the odds are only as good as the ratings, and the
@@ -49,5 +51,6 @@ pub mod log;
 pub mod model;
 pub mod odds;
 pub mod report;
+pub mod rules;
 pub mod safety;
 pub mod solver;

@@ -103,11 +103,11 @@ fn is_secure(incident: &Incident, t: TaskIdx, ln: f64) -> bool {
     cmp_ln(ln, ln_cap(incident, incident.tasks[t].tier)) != Ordering::Less
 }
 
-/// The placement without unit `u` (indices shifted as by `remove_unit`).
+/// The placement with unit `u` gone (`remove_unit` keeps every index).
 fn without(p: &Placement, u: UnitIdx) -> Placement {
-    let mut v = p.0.clone();
-    v.remove(u);
-    Placement(v)
+    let mut v = p.clone();
+    v.set(u, None);
+    v
 }
 
 /// The stable re-plan of `incident`, warm-started from `warm`.

@@ -53,6 +53,7 @@
 use super::{AdviseError, AdviseOptions, TierOdds, tier_odds};
 use crate::model::{Incident, Placement, TaskIdx, Tier, TypeIdx, Unit, UnitStatus};
 use crate::odds::{TaskTally, tallies};
+use crate::rules;
 use crate::solver::key::{cmp_ln, ln_cap};
 use crate::solver::{SolveOptions, solve};
 use serde::Serialize;
@@ -196,6 +197,21 @@ struct TraitLimit {
 impl TraitLimit {
     /// Largest mean the task can get with the extra means `extra` (largest
     /// first): the `max_units` largest of both lists.
+    /// Largest mean with `count` extra units of mean `value` each (no list
+    /// built: `count` may be a `max_units` from the file, up to 2³²−1).
+    fn best_with_copies(&self, value: f64, count: usize) -> f64 {
+        let n = self.prefix.len() - 1;
+        let top = count.min(self.max_units);
+        // Between 0 and max_units − n extras the task's own units all fit,
+        // so the sum only grows with i (value > 0) or only falls: the ends
+        // of that stretch and the last n + 1 counts are all that can win.
+        let lo = self.max_units.saturating_sub(n).min(top);
+        std::iter::once(0)
+            .chain(lo..=top)
+            .map(|i| i as f64 * value + self.prefix[(self.max_units - i).min(n)])
+            .fold(f64::NEG_INFINITY, f64::max)
+    }
+
     fn best(&self, extra: &[f64]) -> f64 {
         let n = self.prefix.len() - 1;
         let mut best = f64::NEG_INFINITY;
@@ -220,7 +236,7 @@ struct Screen {
 }
 
 fn may_go(incident: &Incident, u: usize, t: TaskIdx) -> bool {
-    incident.may_place(u, t) && incident.pins.get(&u).is_none_or(|&p| p == t)
+    rules::plan_may_put(incident, u, t)
 }
 
 impl Screen {
@@ -250,7 +266,7 @@ impl Screen {
                     k,
                     threshold,
                     prefix,
-                    max_units: task.max_units.map_or(usize::MAX, |m| m as usize),
+                    max_units: rules::capacity(task),
                 });
             }
         }
@@ -328,8 +344,8 @@ fn unreachable(incident: &Incident, screen: &Screen) -> Vec<Unreachable> {
                 });
             }
         } else if l.max_units < usize::MAX {
-            let extra = vec![strongest; l.max_units];
-            if l.best(&extra) < l.threshold {
+            let reach = l.best_with_copies(strongest, l.max_units);
+            if reach < l.threshold {
                 out.push(Unreachable {
                     task: task.id.clone(),
                     trait_id: trait_def.id.clone(),
@@ -337,7 +353,7 @@ fn unreachable(incident: &Incident, screen: &Screen) -> Vec<Unreachable> {
                         "max_units {} caps it: even {} of the strongest type give {} {} on average, short of the {} {} needed at its secure level",
                         l.max_units,
                         l.max_units,
-                        fmt_amount(l.best(&extra)),
+                        fmt_amount(reach),
                         trait_def.unit,
                         fmt_amount(l.threshold),
                         trait_def.unit
@@ -576,9 +592,7 @@ fn search_tier(
     // The exact search can judge every candidate on small incidents; on
     // larger ones a candidate is first inserted into the best plan.
     let movable = (0..incident.units.len())
-        .filter(|u| {
-            incident.units[*u].status == UnitStatus::Available && !incident.pins.contains_key(u)
-        })
+        .filter(|u| rules::counts_in_reserve(&incident.units[*u]) && !incident.pins.contains_key(u))
         .count();
     let insertion_only = movable + options.max_extra_units > options.exact_max_units;
     let cap = ln_cap(incident, tier);
@@ -758,7 +772,7 @@ impl Insertion {
             for (i, _) in below {
                 let (t, tl) = &mut tasks[i];
                 let task = &pool.tasks[*t];
-                if tl.count() >= task.max_units.unwrap_or(u32::MAX) {
+                if !rules::has_room(task, tl.count() as usize) {
                     continue;
                 }
                 let mut best: Option<(usize, f64)> = None;
@@ -834,5 +848,43 @@ mod tests {
         assert_eq!(l.best(&[]), 8.0);
         assert_eq!(l.best(&[6.0]), 11.0);
         assert_eq!(l.best(&[6.0, 6.0]), 12.0);
+    }
+
+    #[test]
+    fn copies_bound_matches_the_list_without_building_it() {
+        // Brute force: best_with_copies(v, c) against best(&vec![v; c]) for
+        // small caps and counts, over prefixes with means above and below v.
+        for max_units in 0..7 {
+            for count in 0..9 {
+                for v in [0.5, 2.0, 4.0, 9.0] {
+                    let l = TraitLimit {
+                        task: 0,
+                        k: 0,
+                        threshold: 0.0,
+                        prefix: vec![0.0, 5.0, 8.0, 9.0],
+                        max_units,
+                    };
+                    let want = l.best(&vec![v; count]);
+                    assert_eq!(
+                        l.best_with_copies(v, count),
+                        want,
+                        "{max_units} {count} {v}"
+                    );
+                }
+            }
+        }
+        // The file's largest max_units: no allocation; the best keeps the
+        // own unit of mean 5 beside 2³²−2 copies of mean 1.
+        let l = TraitLimit {
+            task: 0,
+            k: 0,
+            threshold: 0.0,
+            prefix: vec![0.0, 5.0],
+            max_units: u32::MAX as usize,
+        };
+        assert_eq!(
+            l.best_with_copies(1.0, u32::MAX as usize),
+            f64::from(u32::MAX - 1) + 5.0
+        );
     }
 }

@@ -66,8 +66,8 @@ placement: { E1: T1, E2: T1 }
         let inc = parse_incident_str(YAML, "w.yaml").expect("valid");
         let ev: Event = serde_yaml::from_str("{kind: unit_lost, unit: E1}").expect("event");
         let w = what_if(&inc, &ev).expect("applies");
-        assert_eq!(inc.units.len(), 3, "the original is untouched");
-        assert_eq!(w.incident.units.len(), 2);
+        assert_eq!(inc.roster_len(), 3, "the original is untouched");
+        assert_eq!(w.incident.roster_len(), 2);
         let mut by_log = inc.clone();
         apply(&mut by_log, &ev).expect("applies");
         assert_eq!(by_log, w.incident);

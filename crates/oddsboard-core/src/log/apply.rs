@@ -11,6 +11,7 @@ use super::event::{Event, Move, OutcomeValue, StatusValue};
 use crate::model::load::{Sink, convert_task, convert_unit};
 use crate::model::locate::Locator;
 use crate::model::{Incident, Need, Outcome, Placement, TaskIdx, UnitIdx, UnitStatus};
+use crate::rules;
 
 /// Why an event does not apply to the state.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -65,62 +66,13 @@ fn task_name(state: &Incident, t: Option<TaskIdx>) -> &str {
     t.map_or("reserve", |t| state.tasks[t].id.as_str())
 }
 
-/// Units in reserve that could be placed.
-fn reserve_count(state: &Incident, p: &Placement) -> usize {
-    state
-        .units
-        .iter()
-        .enumerate()
-        .filter(|(u, unit)| unit.status == UnitStatus::Available && p.get(*u).is_none())
-        .count()
-}
-
 /// Checks a new ground placement that differs from the current one in
-/// `changed`: each destination takes the unit (status, open task, accepts),
-/// pins hold, no task goes over `max_units`, and the reserve does not drop
-/// below `reserve_min`. A constraint already broken before (e.g. after a unit
-/// was lost) refuses only a change that makes it worse.
+/// `changed` against [`rules::ground_problem`].
 fn check_ground(state: &Incident, new: &Placement, changed: &[UnitIdx]) -> Result<(), ApplyError> {
-    let old = &state.placement;
-    for &u in changed {
-        let unit = &state.units[u];
-        let to = new.get(u);
-        if let Some(&pt) = state.pins.get(&u)
-            && to != Some(pt)
-        {
-            return refuse(format!(
-                "{} is pinned to {}; unpin it before moving it to {}",
-                unit.id,
-                state.tasks[pt].id,
-                task_name(state, to)
-            ));
-        }
-        let Some(t) = to else { continue };
-        check_may_go(state, u, t, "placed")?;
+    match rules::ground_problem(state, new, changed, "placed") {
+        Some(why) => refuse(why),
+        None => Ok(()),
     }
-    let mut dests: Vec<TaskIdx> = changed.iter().filter_map(|&u| new.get(u)).collect();
-    dests.sort_unstable();
-    dests.dedup();
-    for t in dests {
-        if let Some(max) = state.tasks[t].max_units {
-            let after = new.units_on(t).count();
-            let before = old.units_on(t).count();
-            if after > max as usize && after > before {
-                return refuse(format!(
-                    "task {} takes at most {max} units; this would put {after} on it",
-                    state.tasks[t].id
-                ));
-            }
-        }
-    }
-    let (before, after) = (reserve_count(state, old), reserve_count(state, new));
-    if after < state.reserve_min as usize && after < before {
-        return refuse(format!(
-            "the incident keeps at least {} units in reserve; this would leave {after}",
-            state.reserve_min
-        ));
-    }
-    Ok(())
 }
 
 /// Resolves and checks a list of moves against the ground: every unit known
@@ -154,63 +106,17 @@ fn resolve_moves(
     Ok((new, changed))
 }
 
-/// The unit can go to the task at all: in service, task open, type
-/// accepted. `verb` says what was asked ("placed", "pinned").
-fn check_may_go(state: &Incident, u: UnitIdx, t: TaskIdx, verb: &str) -> Result<(), ApplyError> {
-    let unit = &state.units[u];
-    let task = &state.tasks[t];
-    if unit.status == UnitStatus::OutOfService {
-        return refuse(format!(
-            "{} is out of service and cannot be {verb}",
-            unit.id
-        ));
-    }
-    if !task.is_open() {
-        return refuse(format!("task {} is closed", task.id));
-    }
-    if !task.accepts_type(unit.type_idx) {
-        return refuse(format!(
-            "task {} does not accept unit type {} ({})",
-            task.id, state.unit_types[unit.type_idx].id, unit.id
-        ));
-    }
-    Ok(())
-}
-
 fn check_pin(state: &Incident, u: UnitIdx, t: TaskIdx) -> Result<(), ApplyError> {
-    let unit = &state.units[u];
-    let task = &state.tasks[t];
     if state.pins.get(&u) == Some(&t) {
-        return refuse(format!("{} is already pinned to {}", unit.id, task.id));
-    }
-    check_may_go(state, u, t, "pinned")?;
-    if let Some(max) = task.max_units {
-        let pinned = state
-            .pins
-            .iter()
-            .filter(|&(&pu, &pt)| pt == t && pu != u)
-            .count();
-        if pinned + 1 > max as usize {
-            return refuse(format!(
-                "task {} takes at most {max} units and {pinned} are already pinned to it",
-                task.id
-            ));
-        }
-    }
-    let available = state
-        .units
-        .iter()
-        .filter(|u| u.status == UnitStatus::Available)
-        .count();
-    let pinned_after = state.pins.len() + usize::from(!state.pins.contains_key(&u));
-    if available.saturating_sub(pinned_after) < state.reserve_min as usize {
         return refuse(format!(
-            "the incident keeps at least {} units in reserve; this pin would leave {} unpinned",
-            state.reserve_min,
-            available.saturating_sub(pinned_after)
+            "{} is already pinned to {}",
+            state.units[u].id, state.tasks[t].id
         ));
     }
-    Ok(())
+    match rules::new_pin_problem(state, u, t) {
+        Some(why) => refuse(why),
+        None => Ok(()),
+    }
 }
 
 fn new_sink<'a>(locator: &'a Locator, what: &'a str) -> Sink<'a> {
@@ -458,7 +364,7 @@ placement: { E1: T1 }
             ("{kind: moved, unit: E2, to: T1}", "at most 1 units"),
             (
                 "{kind: moved, unit: B1, to: T1}",
-                "does not accept unit type boat",
+                "does not accept unit type `boat`",
             ),
             ("{kind: moved, unit: E1, to: T1}", "already on T1"),
             ("{kind: unpinned, unit: E1}", "not pinned"),

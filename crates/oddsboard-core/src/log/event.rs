@@ -89,7 +89,8 @@ pub enum Event {
         format: u32,
         incident: Box<IncidentFile>,
     },
-    /// The unit leaves its task and the roster.
+    /// The unit leaves its task, its pin and the roster (its index stays, as
+    /// a tombstone: no other index changes).
     UnitLost {
         unit: String,
         #[serde(default, skip_serializing_if = "Option::is_none")]

@@ -53,7 +53,12 @@ fn random_event(rng: &mut Xoshiro256PlusPlus, s: &Incident, last: Option<&Event>
         }
     }
     let r: f64 = rng.random();
-    let unit_id = |rng: &mut Xoshiro256PlusPlus| pick(rng, &s.units).map(|u| u.id.clone());
+    // A lost unit's tombstone is drawn like any slot, then given up.
+    let unit_id = |rng: &mut Xoshiro256PlusPlus| {
+        pick(rng, &s.units)
+            .filter(|u| !u.is_lost())
+            .map(|u| u.id.clone())
+    };
     let open: Vec<&str> = s
         .tasks
         .iter()
@@ -82,7 +87,7 @@ fn random_event(rng: &mut Xoshiro256PlusPlus, s: &Incident, last: Option<&Event>
         Event::PlanProposed { moves }
     } else if r < 0.57 {
         let u = rng.random_range(0..s.units.len().max(1));
-        let unit = s.units.get(u)?;
+        let unit = s.units.get(u).filter(|u| !u.is_lost())?;
         let k = rng.random_range(0..s.traits.len());
         let old = unit.ratings[k];
         Event::UnitRerated {
@@ -131,6 +136,7 @@ fn random_event(rng: &mut Xoshiro256PlusPlus, s: &Incident, last: Option<&Event>
             status: match unit.status {
                 UnitStatus::Available => StatusValue::OutOfService,
                 UnitStatus::OutOfService => StatusValue::Available,
+                UnitStatus::Lost => return None,
             },
         }
     } else if r < 0.89 {
@@ -151,11 +157,10 @@ fn random_event(rng: &mut Xoshiro256PlusPlus, s: &Incident, last: Option<&Event>
     } else if r < 0.93 {
         let k = trait_id(rng)?;
         let mean_unit: f64 = s
-            .units
-            .iter()
-            .map(|u| u.ratings[s.trait_idx(&k).unwrap_or(0)].mean)
+            .roster()
+            .map(|(_, u)| u.ratings[s.trait_idx(&k).unwrap_or(0)].mean)
             .sum::<f64>()
-            / s.units.len().max(1) as f64;
+            / s.roster().count().max(1) as f64;
         Event::TaskAdded {
             task: crate::model::file::TaskFile {
                 id: format!("N{:04}", rng.random_range(0..10_000u32)),

@@ -251,17 +251,6 @@ impl LogWriter {
         Ok(parsed.records)
     }
 
-    /// Picks up what other writers appended, without writing. Returns the
-    /// new records.
-    pub fn refresh(&mut self) -> Result<Vec<Record>, LogError> {
-        let file = self.file.try_clone().map_err(|source| LogError::Io {
-            file: self.name.clone(),
-            source,
-        })?;
-        let _lock = Locked::take(&file, &self.name)?;
-        self.catch_up()
-    }
-
     /// Appends one event after checking it applies to the state at the end of
     /// the log (including what others appended). Returns only once the record
     /// is synced to disk. A refused event leaves the file untouched.

@@ -226,10 +226,10 @@ impl IncidentFile {
                 cost: ty.cost,
             })
             .collect();
+        // Lost units' tombstones are not written: the file knows no such status.
         let units = incident
-            .units
-            .iter()
-            .map(|u| {
+            .roster()
+            .map(|(_, u)| {
                 let base = &incident.unit_types[u.type_idx].ratings;
                 let traits = u
                     .ratings

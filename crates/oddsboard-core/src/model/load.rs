@@ -127,6 +127,21 @@ pub fn parse_incident_str(text: &str, file: &str) -> Result<Incident, LoadError>
     }
 }
 
+/// Validates an incident already in the file's shape (a log's snapshot,
+/// read from its JSON record) with the checks of meaning the file loader
+/// makes, without going back to text: the record's own decoder has already
+/// refused unknown fields and wrong types. Diagnostics carry paths, no lines.
+pub fn validate_file(f: &IncidentFile, file: &str) -> Result<Incident, LoadError> {
+    let locator = Locator::new("");
+    let mut sink = Sink::new(file, &locator);
+    let incident = convert(f, &mut sink);
+    if sink.out.is_empty() {
+        Ok(incident)
+    } else {
+        Err(LoadError::Invalid(sink.finish()))
+    }
+}
+
 /// A serde_yaml error on the whole text (syntax, limits) as a diagnostic.
 fn yaml_error(file: &str, e: &serde_yaml::Error) -> Diagnostic {
     let location = e.location();
@@ -1008,65 +1023,15 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
             }
         }
     }
-    for (t, task) in incident.tasks.iter().enumerate() {
-        let Some(max) = task.max_units else { continue };
-        let pinned = incident.pins.values().filter(|&&pt| pt == t).count();
-        if pinned as u64 > u64::from(max) {
-            sink.error(
-                format!("tasks[{t}].max_units"),
-                format!(
-                    "{pinned} units are pinned to `{}` but its max_units is {max}",
-                    task.id
-                ),
-            );
-        }
-        let placed = incident.placement.units_on(t).count();
-        if placed as u64 > u64::from(max) {
-            sink.error(
-                format!("tasks[{t}].max_units"),
-                format!(
-                    "{placed} units are placed on `{}` but its max_units is {max}",
-                    task.id
-                ),
-            );
-        }
-    }
-    // Pinned units must go to their tasks, so only available unpinned units
-    // can make up the reserve.
-    let available = incident
-        .units
-        .iter()
-        .filter(|u| u.status == UnitStatus::Available)
-        .count();
-    let free = available.saturating_sub(incident.pins.len());
-    if reserve_min as usize > free {
-        sink.error(
-            "incident.reserve_min",
-            format!(
-                "reserve_min is {reserve_min} but only {free} units are available and not pinned"
-            ),
-        );
+    for v in crate::rules::count_violations(&incident, true) {
+        sink.error(v.field, v.message);
     }
     incident
 }
 
 /// Why unit `u` may not stand on (or be pinned to) task `t`, if it may not.
 fn placement_problem(incident: &Incident, u: UnitIdx, t: TaskIdx) -> Option<String> {
-    let unit = &incident.units[u];
-    let task = &incident.tasks[t];
-    if unit.status == UnitStatus::OutOfService {
-        Some("the unit is out of service".to_string())
-    } else if let Some(outcome) = task.outcome {
-        Some(format!("the task is closed ({})", outcome.as_str()))
-    } else if !task.accepts_type(unit.type_idx) {
-        Some(format!(
-            "the task does not accept unit type `{}`",
-            incident
-                .unit_types
-                .get(unit.type_idx)
-                .map_or("?", |ty| ty.id.as_str())
-        ))
-    } else {
-        None
-    }
+    crate::rules::may_go(incident, u, t)
+        .err()
+        .map(|r| r.reason(incident))
 }

@@ -68,6 +68,10 @@ pub enum UnitStatus {
     #[default]
     Available,
     OutOfService,
+    /// Lost (`unit_lost`): a tombstone. The unit keeps its index so no other
+    /// index changes meaning, but it is out of every roster view, the
+    /// snapshot, the solver and the odds. Never written in an incident file.
+    Lost,
 }
 
 impl UnitStatus {
@@ -75,6 +79,7 @@ impl UnitStatus {
         match self {
             UnitStatus::Available => "available",
             UnitStatus::OutOfService => "out_of_service",
+            UnitStatus::Lost => "lost",
         }
     }
 }
@@ -88,6 +93,13 @@ pub struct Unit {
     /// applied), indexed by [`TraitIdx`].
     pub ratings: Vec<Rating>,
     pub status: UnitStatus,
+}
+
+impl Unit {
+    /// A tombstone left by `unit_lost`.
+    pub fn is_lost(&self) -> bool {
+        self.status == UnitStatus::Lost
+    }
 }
 
 /// Priority tier of a task, in the order the trade uses.
@@ -275,37 +287,49 @@ impl Incident {
     pub fn type_idx(&self, id: &str) -> Option<TypeIdx> {
         self.unit_types.iter().position(|t| t.id == id)
     }
+    /// The unit on the roster with this id (a lost unit is not).
     pub fn unit_idx(&self, id: &str) -> Option<UnitIdx> {
+        self.units.iter().position(|u| u.id == id && !u.is_lost())
+    }
+    /// The slot of this id, a lost unit's tombstone included.
+    pub fn unit_slot(&self, id: &str) -> Option<UnitIdx> {
         self.units.iter().position(|u| u.id == id)
+    }
+    /// How many units are on the roster (lost ones are not).
+    pub fn roster_len(&self) -> usize {
+        self.roster().count()
+    }
+    /// The units on the roster (not lost), with their indices.
+    pub fn roster(&self) -> impl Iterator<Item = (UnitIdx, &Unit)> + '_ {
+        self.units.iter().enumerate().filter(|(_, u)| !u.is_lost())
     }
     pub fn task_idx(&self, id: &str) -> Option<TaskIdx> {
         self.tasks.iter().position(|t| t.id == id)
     }
-    pub fn rho_of_unit(&self, u: UnitIdx) -> f64 {
-        self.unit_types[self.units[u].type_idx].rho
-    }
     /// Can unit `u` be placed on task `t` at all (status, open task, accepts)?
-    /// Counts (`max_units`, `reserve_min`) and pins are checked elsewhere.
+    /// The rule is [`crate::rules::may_go`]; counts and pins are its siblings.
     pub fn may_place(&self, u: UnitIdx, t: TaskIdx) -> bool {
-        let unit = &self.units[u];
-        let task = &self.tasks[t];
-        unit.status == UnitStatus::Available && task.is_open() && task.accepts_type(unit.type_idx)
+        crate::rules::can_go(self, u, t)
     }
 
-    /// Removes a unit from the roster (lost), keeping placement and pins
-    /// aligned with the shifted unit indices.
+    /// Takes a unit off the roster (lost): it leaves its task and its pin
+    /// and stays as a tombstone, so every other index keeps its meaning.
     pub fn remove_unit(&mut self, u: UnitIdx) {
-        self.units.remove(u);
-        self.placement.0.remove(u);
-        self.pins = std::mem::take(&mut self.pins)
-            .into_iter()
-            .filter(|(pu, _)| *pu != u)
-            .map(|(pu, t)| (if pu > u { pu - 1 } else { pu }, t))
-            .collect();
+        self.units[u].status = UnitStatus::Lost;
+        self.placement.set(u, None);
+        self.pins.remove(&u);
     }
 
-    /// Adds a unit to the roster, in reserve.
+    /// Adds a unit to the roster, in reserve. A unit with the id of a lost
+    /// one takes back its slot (and index); any other goes at the end.
     pub fn add_unit(&mut self, unit: Unit) -> UnitIdx {
+        if let Some(u) = self.unit_slot(&unit.id)
+            && self.units[u].is_lost()
+        {
+            self.units[u] = unit;
+            self.placement.set(u, None);
+            return u;
+        }
         self.units.push(unit);
         self.placement.0.push(None);
         self.units.len() - 1

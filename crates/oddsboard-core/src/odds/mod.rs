@@ -98,14 +98,26 @@ impl TraitOdds {
     }
 }
 
+/// √(units' variance + need sd²) without overflow: a need sd above about
+/// 1e154 squares to +∞, which would make z = 0 and the odds 50 %. The
+/// finite case (every real incident) keeps the plain formula.
+#[inline]
+pub fn total_sd(unit_var: f64, need_sd: f64) -> f64 {
+    let var = unit_var + need_sd * need_sd;
+    if var.is_finite() {
+        var.sqrt()
+    } else {
+        unit_var.sqrt().hypot(need_sd)
+    }
+}
+
 /// Odds of one trait given aggregate mean, the units' variance and the need.
 /// Where the total variance is 0 the odds are 1 if mean ≥ need, else 0.
 pub fn trait_odds(trait_idx: usize, mean: f64, unit_var: f64, need: Need) -> TraitOdds {
     let unit_var = unit_var.max(0.0);
-    let var = unit_var + need.sd * need.sd;
-    let sd = var.sqrt();
+    let sd = total_sd(unit_var, need.sd);
     let diff = mean - need.need;
-    let (z, ln_odds, ln_fail) = if var > 0.0 {
+    let (z, ln_odds, ln_fail) = if sd > 0.0 {
         let z = diff / sd;
         (z, ln_phi(z), ln_phi_complement(z))
     } else if diff >= 0.0 {
@@ -130,10 +142,10 @@ pub fn trait_odds(trait_idx: usize, mean: f64, unit_var: f64, need: Need) -> Tra
 /// computing z's complement, for the solver's inner loop.
 #[inline]
 pub fn trait_ln_odds(mean: f64, unit_var: f64, need: Need) -> f64 {
-    let var = unit_var.max(0.0) + need.sd * need.sd;
+    let sd = total_sd(unit_var.max(0.0), need.sd);
     let diff = mean - need.need;
-    if var > 0.0 {
-        ln_phi(diff / var.sqrt())
+    if sd > 0.0 {
+        ln_phi(diff / sd)
     } else if diff >= 0.0 {
         0.0
     } else {

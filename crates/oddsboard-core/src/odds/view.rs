@@ -192,9 +192,7 @@ pub fn placement_view(
     placement: &Placement,
 ) -> BTreeMap<String, Option<String>> {
     incident
-        .units
-        .iter()
-        .enumerate()
+        .roster()
         .map(|(u, unit)| {
             let task = placement.get(u).map(|t| incident.tasks[t].id.clone());
             (unit.id.clone(), task)

@@ -175,10 +175,6 @@ impl TimelineWalker {
                 }
             }
         }
-        let lost = match &r.event {
-            Event::UnitLost { unit, .. } => self.replay.state.unit_idx(unit),
-            _ => None,
-        };
         self.replay.step(r)?;
         let state = &self.replay.state;
         for id in &touched {
@@ -201,16 +197,6 @@ impl TimelineWalker {
                 }
             }
             _ => {}
-        }
-        if let Some(lost) = lost {
-            // Unit indices above the lost one shift down by one.
-            for o in &mut self.odds {
-                o.units.retain(|&u| u != lost);
-                o.units
-                    .iter_mut()
-                    .filter(|u| **u > lost)
-                    .for_each(|u| *u -= 1);
-            }
         }
         dirty.sort_unstable();
         dirty.dedup();

@@ -35,7 +35,7 @@ fn coverage(inc: &Incident, t: TaskIdx, tally: &TaskTally, lambda: f64) -> f64 {
         .enumerate()
         .filter(|(_, n)| n.counts())
         .map(|(k, n)| {
-            let sd = (tally.unit_var(k) + n.sd * n.sd).sqrt();
+            let sd = crate::odds::total_sd(tally.unit_var(k), n.sd);
             let have = tally.mean(k) - lambda * sd;
             if n.need > 0.0 {
                 have / n.need
@@ -67,7 +67,7 @@ fn coverage_plan(incident: &Incident, lambda: f64) -> Placement {
     // Greedy: the worst task that some reserve unit improves takes the unit
     // that improves it most.
     loop {
-        if reserve <= ctx.reserve_min {
+        if !ctx.may_draw_reserve(reserve) {
             break;
         }
         let mut order = open.clone();
@@ -78,7 +78,7 @@ fn coverage_plan(incident: &Incident, lambda: f64) -> Placement {
         });
         let mut chosen: Option<(UnitIdx, TaskIdx)> = None;
         for &t in &order {
-            if tallies[t].count() >= ctx.max_units[t] {
+            if ctx.is_full(t, tallies[t].count()) {
                 continue;
             }
             let mut best: Option<(UnitIdx, f64)> = None;
@@ -115,7 +115,7 @@ fn coverage_plan(incident: &Incident, lambda: f64) -> Placement {
         }) else {
             break;
         };
-        if tallies[worst].count() >= ctx.max_units[worst] {
+        if ctx.is_full(worst, tallies[worst].count()) {
             break;
         }
         let mut best: Option<(UnitIdx, TaskIdx, f64, f64)> = None;
@@ -180,7 +180,7 @@ pub fn random_feasible(incident: &Incident, seed: u64) -> Placement {
             .chain(
                 ctx.allowed[u]
                     .iter()
-                    .filter(|&&t| count[t] < ctx.max_units[t])
+                    .filter(|&&t| !ctx.is_full(t, count[t]))
                     .map(|&t| Some(t)),
             )
             .collect();

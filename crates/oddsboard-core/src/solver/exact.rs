@@ -218,8 +218,8 @@ impl Search<'_, '_> {
                 continue;
             }
             if let Some(t) = o {
-                if state.tallies[t].count() >= self.ctx.max_units[t]
-                    || state.reserve <= self.ctx.reserve_min
+                if self.ctx.is_full(t, state.tallies[t].count())
+                    || !self.ctx.may_draw_reserve(state.reserve)
                 {
                     continue;
                 }

@@ -40,7 +40,7 @@ pub mod stable;
 
 pub use key::ObjectiveKey;
 
-use crate::model::{Incident, Placement, TaskIdx, UnitIdx, UnitStatus};
+use crate::model::{Incident, Placement, TaskIdx, UnitIdx};
 use search::{Ctx, SearchLimits, State, greedy_fill, local_search};
 use std::sync::atomic::{AtomicBool, Ordering as AtomicOrdering};
 use std::time::{Duration, Instant};
@@ -207,74 +207,30 @@ pub fn moves_between(before: &Placement, after: &Placement) -> Vec<Move> {
 /// the unit, no task pinned over its maximum, enough unpinned available
 /// units for the reserve.
 pub fn check_feasible(incident: &Incident) -> Result<(), SolveError> {
-    let n_tasks = incident.tasks.len();
     for (&u, &t) in &incident.pins {
-        let Some(unit) = incident.units.get(u) else {
+        if u >= incident.units.len() {
             return Err(infeasible(
                 format!("pins[{u}]"),
                 "pins a unit that is not on the roster".into(),
             ));
-        };
-        let field = format!("pins.{}", unit.id);
-        if t >= n_tasks {
+        }
+        if t >= incident.tasks.len() {
             return Err(infeasible(
-                field,
+                format!("pins.{}", incident.units[u].id),
                 "pinned to a task that does not exist".into(),
             ));
         }
-        let task = &incident.tasks[t];
-        if unit.status != UnitStatus::Available {
-            return Err(infeasible(
-                field,
-                format!(
-                    "`{}` is out of service and cannot stay on `{}`",
-                    unit.id, task.id
-                ),
-            ));
-        }
-        if !task.is_open() {
-            return Err(infeasible(field, format!("task `{}` is closed", task.id)));
-        }
-        if !task.accepts_type(unit.type_idx) {
-            return Err(infeasible(
-                field,
-                format!(
-                    "task `{}` does not accept type `{}`",
-                    task.id, incident.unit_types[unit.type_idx].id
-                ),
-            ));
+        if let Some(v) = crate::rules::pin_violation(incident, u, t) {
+            return Err(infeasible(v.field, v.message));
         }
     }
-    for (t, task) in incident.tasks.iter().enumerate() {
-        if let Some(max) = task.max_units {
-            let pinned = incident.pins.values().filter(|&&p| p == t).count();
-            if pinned as u32 > max {
-                return Err(infeasible(
-                    format!("tasks[{t}].max_units"),
-                    format!(
-                        "{pinned} units are pinned to `{}` but max_units is {max}",
-                        task.id
-                    ),
-                ));
-            }
-        }
+    match crate::rules::count_violations(incident, false)
+        .into_iter()
+        .next()
+    {
+        Some(v) => Err(infeasible(v.field, v.message)),
+        None => Ok(()),
     }
-    let free = incident
-        .units
-        .iter()
-        .enumerate()
-        .filter(|(u, x)| x.status == UnitStatus::Available && !incident.pins.contains_key(u))
-        .count() as u32;
-    if incident.reserve_min > free {
-        return Err(infeasible(
-            "incident.reserve_min".into(),
-            format!(
-                "reserve_min is {} but only {free} available unpinned units exist",
-                incident.reserve_min
-            ),
-        ));
-    }
-    Ok(())
 }
 
 /// Recommends a placement. See the module docs for the method; the caller

@@ -11,8 +11,9 @@ use super::key::{
     LN_TOLERANCE, LnCaps, TaskChange, cmp_ln, compare_change_capped, counts, ln_caps,
 };
 use super::{Budget, ObjectiveKey};
-use crate::model::{Incident, Placement, TaskIdx, UnitIdx, UnitStatus};
+use crate::model::{Incident, Placement, TaskIdx, UnitIdx};
 use crate::odds::{TaskTally, tallies};
+use crate::rules;
 use rand::rngs::Xoshiro256PlusPlus;
 use rand::{RngExt, SeedableRng};
 use std::cmp::Ordering;
@@ -22,14 +23,18 @@ use std::cmp::Ordering;
 #[derive(Clone)]
 pub struct Ctx<'a> {
     pub inc: &'a Incident,
-    /// Tasks each unit may be placed on (empty for out-of-service units).
+    /// Tasks each unit may be placed on ([`rules::may_go`]; empty for
+    /// out-of-service units), precomputed for the inner loop.
     pub allowed: Vec<Vec<TaskIdx>>,
     /// `allowed_on[u][t]`.
     pub allowed_on: Vec<Vec<bool>>,
     pub pinned: Vec<Option<TaskIdx>>,
     /// Units the search may move: available and not pinned.
     pub movable: Vec<UnitIdx>,
+    /// [`rules::capacity`] per task (saturated to `u32::MAX`, which no
+    /// count reaches); compare through [`Ctx::is_full`].
     pub max_units: Vec<u32>,
+    /// The incident's `reserve_min`; compare through [`Ctx::may_draw_reserve`].
     pub reserve_min: u32,
     /// Interchangeable units (same type, same ratings, same status) share a
     /// group: trying one reserve unit of a group stands for all of them.
@@ -63,10 +68,10 @@ impl<'a> Ctx<'a> {
             group.push(*groups.entry(sig).or_insert(next));
         }
         for u in 0..inc.units.len() {
-            let row: Vec<bool> = (0..n_tasks).map(|t| inc.may_place(u, t)).collect();
+            let row: Vec<bool> = (0..n_tasks).map(|t| rules::can_go(inc, u, t)).collect();
             allowed.push((0..n_tasks).filter(|&t| row[t]).collect());
             allowed_on.push(row);
-            if inc.units[u].status == UnitStatus::Available && pinned[u].is_none() {
+            if rules::counts_in_reserve(&inc.units[u]) && pinned[u].is_none() {
                 movable.push(u);
             }
         }
@@ -79,13 +84,26 @@ impl<'a> Ctx<'a> {
             max_units: inc
                 .tasks
                 .iter()
-                .map(|t| t.max_units.unwrap_or(u32::MAX))
+                .map(|t| u32::try_from(rules::capacity(t)).unwrap_or(u32::MAX))
                 .collect(),
             reserve_min: inc.reserve_min,
             n_groups: groups.len(),
             group,
             caps: ln_caps(inc),
         }
+    }
+
+    /// Task `t` holding `count` units has no room for another
+    /// ([`rules::has_room`], precomputed).
+    #[inline]
+    pub fn is_full(&self, t: TaskIdx, count: u32) -> bool {
+        count >= self.max_units[t]
+    }
+
+    /// One more unit may leave a reserve of `reserve` ([`rules::may_draw_reserve`]).
+    #[inline]
+    pub fn may_draw_reserve(&self, reserve: u32) -> bool {
+        rules::may_draw_reserve(self.reserve_min, reserve as usize)
     }
 
     /// The same incident ranked with each tier capped at `caps`.
@@ -119,7 +137,7 @@ impl<'a> Ctx<'a> {
         let mut count = vec![0u32; self.inc.tasks.len()];
         for u in 0..n {
             if let Some(t) = p[u] {
-                if count[t] >= self.max_units[t] && self.pinned[u].is_none() {
+                if self.is_full(t, count[t]) && self.pinned[u].is_none() {
                     p[u] = None;
                 } else {
                     count[t] += 1;
@@ -128,7 +146,7 @@ impl<'a> Ctx<'a> {
         }
         let mut reserve = self.movable.iter().filter(|&&u| p[u].is_none()).count() as u32;
         for &u in self.movable.iter().rev() {
-            if reserve >= self.reserve_min {
+            if !rules::reserve_short(self.inc, reserve as usize) {
                 break;
             }
             if p[u].is_some() {
@@ -328,13 +346,13 @@ pub fn greedy_fill(ctx: &Ctx, state: &mut State) {
     let inc = ctx.inc;
     let mut seen = vec![false; ctx.n_groups];
     loop {
-        if state.reserve <= ctx.reserve_min {
+        if !ctx.may_draw_reserve(state.reserve) {
             return;
         }
         let order = state.bottlenecks(ctx);
         let mut done = false;
         for &t in &order {
-            if state.tallies[t].count() >= ctx.max_units[t] {
+            if ctx.is_full(t, state.tallies[t].count()) {
                 continue;
             }
             let below_min = state.ln[t] == f64::NEG_INFINITY;
@@ -401,7 +419,7 @@ pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<S
             before: state.ln[t],
             after,
         };
-        let f_full = state.tallies[f].count() >= ctx.max_units[f];
+        let f_full = ctx.is_full(f, state.tallies[f].count());
         // Moves into f, from reserve (one unit per group) or another task.
         seen.iter_mut().for_each(|x| *x = false);
         for &u in &ctx.movable {
@@ -415,7 +433,7 @@ pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<S
                 }
                 seen[ctx.group[u]] = true;
             }
-            if from.is_none() && state.reserve <= ctx.reserve_min {
+            if from.is_none() && !ctx.may_draw_reserve(state.reserve) {
                 continue;
             }
             *iterations += 1;
@@ -452,7 +470,7 @@ pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<S
                 &mut best,
             );
             for &g in &ctx.allowed[u] {
-                if g == f || state.tallies[g].count() >= ctx.max_units[g] {
+                if g == f || ctx.is_full(g, state.tallies[g].count()) {
                     continue;
                 }
                 *iterations += 1;
@@ -545,11 +563,11 @@ fn perturb(ctx: &Ctx, state: &mut State, rng: &mut Xoshiro256PlusPlus) {
             continue;
         }
         if let Some(t) = to
-            && state.tallies[t].count() >= ctx.max_units[t]
+            && ctx.is_full(t, state.tallies[t].count())
         {
             continue;
         }
-        if from.is_none() && state.reserve <= ctx.reserve_min {
+        if from.is_none() && !ctx.may_draw_reserve(state.reserve) {
             continue;
         }
         state.apply_move(inc, u, to);
