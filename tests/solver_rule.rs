@@ -246,3 +246,64 @@ fn bundled_samples_pass_the_commander_checks() {
         check_commander(&inc);
     }
 }
+
+/// One code path: the dashboard's planner, the advice baseline and the
+/// fragility re-plans give what `solve` (the `plan` command's call) gives
+/// on the same state: the same key and the same disruption (tied plans may
+/// differ in which identical unit moves).
+#[test]
+fn dashboard_and_advice_agree_with_plan() {
+    use oddsboard::advise::{AdviseOptions, baseline_plan, fragility::unit_losses};
+    use oddsboard::solver::ObjectiveKey;
+    use oddsboard::tui::planner::{Planner, SolverPlanner};
+    let inc = parse_incident_str(CELLAR, "cellar.yaml").expect("valid");
+    let cancel = AtomicBool::new(false);
+    let budget = Duration::from_secs(60);
+    let plan = run(&inc, false, SLACK);
+    let dash = SolverPlanner::with_budget(budget)
+        .plan(&inc, &cancel, &mut |_, _, _| {})
+        .expect("plans");
+    let opts = AdviseOptions {
+        baseline_budget: budget,
+        per_loss_budget: budget,
+        slack: SLACK,
+        ..AdviseOptions::default()
+    };
+    let advice = baseline_plan(&inc, &opts, &cancel).expect("advice");
+    for (who, p) in [
+        ("dashboard", &dash.placement),
+        ("advice", &advice.placement),
+    ] {
+        assert_eq!(
+            ObjectiveKey::of(&inc, p).compare(&plan.key),
+            std::cmp::Ordering::Equal,
+            "{who}: key"
+        );
+        assert_eq!(
+            oddsboard::solver::stable::disruption(&inc, &inc.placement, p),
+            plan.disruption,
+            "{who}: disruption"
+        );
+    }
+    let losses = unit_losses(&inc, &advice, &opts, &cancel).expect("losses");
+    assert!(!losses.is_empty());
+    for loss in &losses {
+        let mut lost = inc.clone();
+        lost.remove_unit(lost.unit_idx(&loss.unit).expect("unit"));
+        let want = run(&lost, false, SLACK);
+        assert!(loss.proven_optimal && want.proven_optimal);
+        let worst = want.key.worst_odds_per_tier();
+        for t in &loss.after {
+            let tier = Tier::parse(t.tier).expect("tier");
+            let w = worst[tier.index()].expect("tier has tasks");
+            assert!(
+                (t.odds - w).abs() <= 1e-9,
+                "{} lost, {}: {} vs {w}",
+                loss.unit,
+                t.tier,
+                t.odds
+            );
+        }
+        assert_eq!(loss.moves, want.moves.len(), "{} lost: moves", loss.unit);
+    }
+}
