@@ -209,7 +209,6 @@ fn proof_reach() {
             println!("  => identical={ident} budget={budget_s}s: largest proved {reach:?}");
         }
     }
-
 }
 
 fn key_after_budget() {
@@ -225,7 +224,6 @@ fn key_after_budget() {
             r.iterations
         );
     }
-
 }
 
 fn replan_after_loss() {
@@ -280,7 +278,6 @@ fn replan_after_loss() {
         p50(&mut first),
         p50(&mut settled)
     );
-
 }
 
 fn baselines_side_by_side() {

@@ -307,3 +307,35 @@ fn dashboard_and_advice_agree_with_plan() {
         assert_eq!(loss.moves, want.moves.len(), "{} lost: moves", loss.unit);
     }
 }
+
+/// The heuristic path (no exact search) on the same scenarios: the plan
+/// meets the thresholds it reports, and leaves no idle reserve unit that
+/// would lift a life-safety task by more than the slack. Not proven.
+#[test]
+fn heuristic_path_passes_the_idle_reserve_check() {
+    let mut incidents: Vec<Incident> = [IDLE_RESERVE, FACADE, CELLAR]
+        .iter()
+        .map(|y| parse_incident_str(y, "scenario.yaml").expect("valid"))
+        .collect();
+    for f in ["river-flood", "building-collapse"] {
+        let path = format!("{}/sample-incidents/{f}.yaml", env!("CARGO_MANIFEST_DIR"));
+        let text = std::fs::read_to_string(&path).expect("sample");
+        incidents.push(parse_incident_str(&text, &path).expect("valid"));
+    }
+    for inc in &incidents {
+        let opts = SolveOptions {
+            budget: Duration::from_secs(60),
+            exact_max_units: 0,
+            ..SolveOptions::default()
+        };
+        let r = solve(inc, &opts, &AtomicBool::new(false), &mut |_| {}).expect("feasible");
+        assert!(!r.proven_optimal);
+        assert!(r.key.meets(&r.thresholds), "{}: thresholds", inc.name);
+        let idle = idle_lifts(inc, &r.placement);
+        assert!(
+            idle.is_empty(),
+            "{}: idle reserve units: {idle:?}",
+            inc.name
+        );
+    }
+}

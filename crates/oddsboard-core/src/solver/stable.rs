@@ -166,19 +166,9 @@ pub fn stable_plan(
     prune_toward_ground(ctx, &mut from_leader, g, thr);
 
     // Repair steps are ranked with each tier capped at its highest
-    // threshold: a task below its threshold is then a bottleneck.
-    let mut caps = ctx.caps;
+    // threshold (fast, separable): a task below it is a bottleneck.
     let tiers = ObjectiveKey::from_ln_odds(inc, &leader.ln).entry_tiers();
-    let mut top = [f64::NEG_INFINITY; 3];
-    for (t, th) in tiers.iter().zip(thr) {
-        top[t.index()] = top[t.index()].max(*th);
-    }
-    for (c, t) in caps.iter_mut().zip(top) {
-        if t > f64::NEG_INFINITY {
-            *c = c.min(t);
-        }
-    }
-    let held = ctx.with_caps(caps);
+    let held = ctx.with_caps(top_caps(ctx, &tiers, thr));
     let mut from_ground = State::new(ctx, &ctx.repair(ground));
     let mut iterations = 0;
     let mut ok = meets(ctx, &from_ground, thr);
@@ -208,6 +198,24 @@ pub fn stable_plan(
         }
     }
     from_leader
+}
+
+/// Each tier's cap lowered to its highest threshold so far: a plan whose
+/// tasks all reach it ties on that tier. Used where the held key
+/// ([`ObjectiveKey::held`]) would be too slow (it is not separable).
+fn top_caps(ctx: &Ctx, tiers: &[crate::model::Tier], thr: &[f64]) -> super::key::LnCaps {
+    let mut top: [Option<f64>; 3] = [None; 3];
+    for (t, th) in tiers.iter().zip(thr) {
+        let x = &mut top[t.index()];
+        *x = Some(x.map_or(*th, |v| v.max(*th)));
+    }
+    let mut caps = ctx.caps;
+    for (c, t) in caps.iter_mut().zip(top) {
+        if let Some(t) = t {
+            *c = c.min(t);
+        }
+    }
+    caps
 }
 
 /// How the rule is applied.
@@ -275,8 +283,12 @@ pub fn stable_replan(
         let cap = ctx.caps[tiers[e].index()];
         let v = ObjectiveKey::from_ln_odds(inc, &leader.ln).capped()[e];
         // Only a relaxed threshold before e can let entry e rise, and not
-        // above its secure level.
-        if relaxed && !reaches(v, cap) {
+        // above its secure level. The heuristic path searches once per
+        // tier (at its first entry) and reads the other entries from the
+        // plans found.
+        let first_of_tier = e == 0 || tiers[e] != tiers[e - 1];
+        let exact_now = settings.exact && proven;
+        if relaxed && !reaches(v, cap) && (exact_now || first_of_tier) {
             if budget.exhausted() {
                 proven = false;
                 stopped_by_budget = true;
@@ -304,13 +316,15 @@ pub fn stable_replan(
                     }
                 } else {
                     proven = false;
+                    // Tiers above held at their highest thresholds.
+                    let held = ctx.with_caps(top_caps(ctx, &tiers, &thr));
                     let limits = SearchLimits {
                         stale_rounds: settings.stale_rounds.min(3),
-                        max_rounds: u64::MAX,
+                        max_rounds: 8,
                     };
                     // Each entry's search may run to a further share of the
                     // budget; the rest is for the disruption step.
-                    let share = budget.share(0.55 + 0.3 * (e + 1) as f64 / n as f64);
+                    let share = budget.share(0.55 + 0.15 * tiers[e].index() as f64);
                     let seed = settings.seed ^ (0x656e_7472_7900 + e as u64);
                     let out = local_search(
                         &held,
