@@ -144,10 +144,47 @@ pub fn prune_toward_ground(ctx: &Ctx, state: &mut State, ground: &[Option<TaskId
                 }
             }
         }
-        if !changed {
+        if !changed && !prune_pairs(ctx, state, ground, thr) {
             return;
         }
     }
+}
+
+/// Sends two moved units back to their ground places at once (e.g. two
+/// units that traded places) if the plan stays acceptable and feasible.
+/// Returns whether a pair went back.
+fn prune_pairs(ctx: &Ctx, state: &mut State, ground: &[Option<TaskIdx>], thr: &[f64]) -> bool {
+    let inc = ctx.inc;
+    let moved: Vec<usize> = ctx
+        .movable
+        .iter()
+        .copied()
+        .filter(|&u| state.place[u] != ground[u] && ground[u].is_none_or(|t| ctx.allowed_on[u][t]))
+        .collect();
+    let fits =
+        |s: &State, t: Option<TaskIdx>| t.is_none_or(|t| s.tallies[t].count() <= ctx.max_units[t]);
+    for (i, &u) in moved.iter().enumerate() {
+        for &v in &moved[i + 1..] {
+            let (fu, fv) = (state.place[u], state.place[v]);
+            // Through reserve, so no task is over its maximum in between.
+            state.apply_move(inc, u, None);
+            state.apply_move(inc, v, None);
+            state.apply_move(inc, u, ground[u]);
+            state.apply_move(inc, v, ground[v]);
+            let ok = fits(state, ground[u])
+                && fits(state, ground[v])
+                && state.reserve >= ctx.reserve_min
+                && meets(ctx, state, thr);
+            if ok {
+                return true;
+            }
+            state.apply_move(inc, u, None);
+            state.apply_move(inc, v, None);
+            state.apply_move(inc, u, fu);
+            state.apply_move(inc, v, fv);
+        }
+    }
+    false
 }
 
 /// The heuristic least-disruption plan; `leader` must be acceptable. The
