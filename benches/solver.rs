@@ -230,8 +230,19 @@ fn replan_after_loss() {
     println!("== re-plan after one loss, 100 x 15 x 4 (10 seeds) ==");
     let mut first = Vec::new();
     let mut settled = Vec::new();
+    let mut settled_slack0 = Vec::new();
     for seed in 0..10 {
         let (_, after) = loss_pair(seed);
+        // The rule without threshold searches (slack 0), for the cost of
+        // the sequential thresholds.
+        let r00 = run(
+            &after,
+            &SolveOptions {
+                slack: 0.0,
+                ..replan_options()
+            },
+        );
+        settled_slack0.push(r00.elapsed.as_secs_f64() * 1e3);
         let quick = SolveOptions {
             budget: Duration::ZERO,
             ..replan_options()
@@ -274,9 +285,10 @@ fn replan_after_loss() {
         v[v.len() / 2]
     };
     println!(
-        "  p50 first proposal {:.2} ms, p50 settled {:.1} ms",
+        "  p50 first proposal {:.2} ms, p50 settled {:.1} ms, p50 settled with slack 0 {:.1} ms",
         p50(&mut first),
-        p50(&mut settled)
+        p50(&mut settled),
+        p50(&mut settled_slack0)
     );
 }
 
