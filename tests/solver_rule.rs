@@ -305,6 +305,12 @@ fn dashboard_and_advice_agree_with_plan() {
             );
         }
         assert_eq!(loss.moves, want.moves.len(), "{} lost: moves", loss.unit);
+        assert_eq!(
+            (loss.withdrawals, loss.dispatches),
+            (want.disruption.withdrawals, want.disruption.dispatches),
+            "{} lost: disruption",
+            loss.unit
+        );
     }
 }
 
