@@ -491,3 +491,64 @@ pub fn verdict(recommended: &ObjectiveKey, other: &ObjectiveKey, slack: f64) -> 
     }
     Verdict::WithinSlack
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::parse_incident_str;
+
+    fn incident() -> Incident {
+        parse_incident_str(
+            r#"
+incident: { name: Invented verdict check }
+traits: [ { id: water } ]
+unit_types: [ { id: e, traits: { water: { mean: 1, sd: 1 } } } ]
+units: [ { id: E1, type: e } ]
+tasks:
+  - { id: L1, tier: life, needs: { water: 1 } }
+  - { id: L2, tier: life, needs: { water: 1 } }
+  - { id: S1, tier: stabilization, needs: { water: 1 } }
+"#,
+            "v.yaml",
+        )
+        .expect("valid")
+    }
+
+    fn key(inc: &Incident, p: [f64; 3]) -> ObjectiveKey {
+        ObjectiveKey::from_ln_odds(inc, &p.map(f64::ln))
+    }
+
+    #[test]
+    fn verdict_reads_entries_within_the_slack() {
+        let inc = incident();
+        let rec = key(&inc, [0.80, 0.90, 0.50]);
+        // 0.5 % lower on the second life entry: within slack.
+        let near = key(&inc, [0.80, 0.8955, 0.50]);
+        assert_eq!(verdict(&rec, &near, 0.01), Verdict::WithinSlack);
+        // 2 % lower on it: worse at entry 1, whatever the tier below does.
+        let worse = key(&inc, [0.80, 0.88, 0.99]);
+        assert_eq!(verdict(&rec, &worse, 0.01), Verdict::Worse { entry: 1 });
+        // Higher by more than the slack at the stabilization entry: better.
+        let better = key(&inc, [0.80, 0.90, 0.60]);
+        assert_eq!(verdict(&rec, &better, 0.01), Verdict::Better { entry: 2 });
+        // Slack 0: any difference beyond the tolerance decides.
+        assert_eq!(verdict(&rec, &near, 0.0), Verdict::Worse { entry: 1 });
+    }
+
+    #[test]
+    fn thresholds_over_plans_follow_the_definition() {
+        let inc = incident();
+        // A: best worst life; B: 0.5 % lower there but far better second
+        // entry; C: fails B's second-entry threshold.
+        let a = key(&inc, [0.80, 0.81, 0.10]);
+        let b = key(&inc, [0.796, 0.95, 0.20]);
+        let c = key(&inc, [0.80, 0.85, 0.90]);
+        let thr = thresholds_over(&[a.clone(), b.clone(), c.clone()], 0.01);
+        let close = |x: f64, y: f64| (x - y).abs() < 1e-12;
+        assert!(close(thr[0], 0.80f64.ln() + 0.99f64.ln()));
+        assert!(close(thr[1], 0.95f64.ln() + 0.99f64.ln()));
+        // Only B meets both life thresholds: its stabilization sets the last.
+        assert!(close(thr[2], 0.20f64.ln() + 0.99f64.ln()));
+        assert!(b.meets(&thr) && !a.meets(&thr) && !c.meets(&thr));
+    }
+}
