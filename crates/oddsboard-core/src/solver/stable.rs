@@ -227,14 +227,52 @@ pub fn stable_plan(
         }
         ok = meets(ctx, &from_ground, thr);
     }
+    let mut best = from_leader;
+    let mut candidates = vec![walk_toward(ctx, ground, leader, thr)];
     if ok {
-        prune_toward_ground(ctx, &mut from_ground, g, thr);
-        let (ca, cb) = (cost(ctx, &from_ground, g), cost(ctx, &from_leader, g));
-        if ca < cb || (ca == cb && from_ground.key(ctx).better_than(&from_leader.key(ctx))) {
-            return from_ground;
+        candidates.push(Some(from_ground));
+    }
+    for mut c in candidates.into_iter().flatten() {
+        prune_toward_ground(ctx, &mut c, g, thr);
+        let (ca, cb) = (cost(ctx, &c, g), cost(ctx, &best, g));
+        if ca < cb || (ca == cb && c.key(ctx).better_than(&best.key(ctx))) {
+            best = c;
         }
     }
-    from_leader
+    best
+}
+
+/// From the ground, the leader's placements one unit at a time, each time
+/// the one that most raises the key with every entry held at its
+/// threshold, until the plan is acceptable (at worst the leader itself).
+fn walk_toward(ctx: &Ctx, ground: &Placement, leader: &State, thr: &[f64]) -> Option<State> {
+    let inc = ctx.inc;
+    let held = ctx.with_floors(thr);
+    let mut s = State::new(ctx, &ctx.repair(ground));
+    for _ in 0..=ctx.movable.len() {
+        if meets(ctx, &s, thr) {
+            return Some(s);
+        }
+        let mut best: Option<(usize, ObjectiveKey)> = None;
+        for &u in &ctx.movable {
+            let (from, to) = (s.place[u], leader.place[u]);
+            if from == to
+                || to.is_some_and(|t| s.tallies[t].count() >= ctx.max_units[t])
+                || (from.is_none() && s.reserve <= ctx.reserve_min)
+            {
+                continue;
+            }
+            s.apply_move(inc, u, to);
+            let k = s.key(&held);
+            s.apply_move(inc, u, from);
+            if best.as_ref().is_none_or(|(_, bk)| k.better_than(bk)) {
+                best = Some((u, k));
+            }
+        }
+        let (u, _) = best?;
+        s.apply_move(inc, u, leader.place[u]);
+    }
+    meets(ctx, &s, thr).then_some(s)
 }
 
 /// Each tier's cap lowered to its highest threshold so far: a plan whose
