@@ -10,7 +10,9 @@
 //! least (withdrawals, dispatches), then the key; from scratch the best
 //! acceptable key): the stable plan meets every threshold, has the minimum
 //! disruption and the best key among those, the from-scratch plan has the
-//! best acceptable key; every upper bound is at least the true optimum.
+//! best acceptable key; the heuristic path (no exact search) returns a
+//! feasible plan meeting the thresholds it reports; every upper bound is at
+//! least the true optimum.
 
 use oddsboard::model::{Incident, Placement, UnitStatus, parse_incident_str};
 use oddsboard::odds::evaluate;
@@ -408,6 +410,31 @@ fn check_rule(
             prop_assert_eq!(oddsboard::solver::key::cmp_ln(*a, *b), Ordering::Equal);
         }
     }
+
+    // The heuristic path (no exact search): a feasible plan that meets the
+    // thresholds it reports, with the disruption it reports.
+    let h = solve(
+        inc,
+        &SolveOptions {
+            exact_max_units: 0,
+            ..opts(false)
+        },
+        &cancel,
+        &mut |_| {},
+    )
+    .expect("feasible");
+    prop_assert!(
+        plans.contains(&h.placement),
+        "seed {seed}: infeasible heuristic plan"
+    );
+    prop_assert!(
+        h.key.meets(&h.thresholds),
+        "seed {seed}: heuristic misses its thresholds"
+    );
+    prop_assert_eq!(
+        (h.disruption.withdrawals, h.disruption.dispatches),
+        disruption_of(inc, &h.placement)
+    );
 
     // From scratch: the best key among acceptable plans.
     let want = acceptable
