@@ -207,6 +207,17 @@ impl ObjectiveKey {
         self
     }
 
+    /// [`Self::held`], and every entry after the first free one set equal
+    /// (0): the key then ranks plans by that entry alone, which is all a
+    /// threshold search needs (ties there need no further search).
+    pub fn held_focus(self, floors: &[f64]) -> Self {
+        let mut k = self.held(floors);
+        for e in k.entries.iter_mut().skip(floors.len() + 1) {
+            *e = 0.0;
+        }
+        k
+    }
+
     /// Does every capped entry reach its threshold (`thresholds[i]` for
     /// entry i; entries past the list are free)?
     pub fn meets(&self, thresholds: &[f64]) -> bool {

@@ -41,6 +41,9 @@ pub struct Ctx<'a> {
     /// Thresholds holding the first capped entries of the key (see
     /// [`ObjectiveKey::held`]); empty for the plain key.
     pub floors: Vec<f64>,
+    /// With floors: rank by the first free entry only
+    /// ([`ObjectiveKey::held_focus`]).
+    pub focus: bool,
 }
 
 impl<'a> Ctx<'a> {
@@ -89,6 +92,7 @@ impl<'a> Ctx<'a> {
             group,
             caps: ln_caps(inc),
             floors: Vec::new(),
+            focus: false,
         }
     }
 
@@ -97,6 +101,17 @@ impl<'a> Ctx<'a> {
     pub fn with_floors(&self, floors: &[f64]) -> Self {
         Ctx {
             floors: floors.to_vec(),
+            focus: false,
+            ..self.clone()
+        }
+    }
+
+    /// Ranked by the first capped entry after `floors` alone, the entries
+    /// before it held at `floors`: what a threshold's search maximises.
+    pub fn with_focus(&self, floors: &[f64]) -> Self {
+        Ctx {
+            floors: floors.to_vec(),
+            focus: true,
             ..self.clone()
         }
     }
@@ -112,7 +127,9 @@ impl<'a> Ctx<'a> {
     /// Key of the ln odds `ln` under this context's caps.
     pub fn key_of(&self, ln: &[f64]) -> ObjectiveKey {
         let key = ObjectiveKey::from_ln_odds_capped(self.inc, ln, &self.caps);
-        if self.floors.is_empty() {
+        if self.focus {
+            key.held_focus(&self.floors)
+        } else if self.floors.is_empty() {
             key
         } else {
             key.held(&self.floors)
@@ -296,7 +313,7 @@ struct Scored {
 
 /// Compares the plans after two candidates (Greater: `a` is better).
 fn cmp_candidates(ctx: &Ctx, state: &State, a: &Scored, b: &Scored) -> Ordering {
-    if !ctx.floors.is_empty() {
+    if !ctx.floors.is_empty() || ctx.focus {
         // Held entries depend on positions, not only on the tasks touched:
         // compare full keys.
         let with = |s: &Scored| {

@@ -368,7 +368,7 @@ pub fn stable_replan(
                 proven = false;
                 stopped_by_budget = true;
             } else {
-                let held = ctx.with_floors(&thr);
+                let held = ctx.with_focus(&thr);
                 if settings.exact && proven {
                     let key = leader.key(&held);
                     let out = exact::branch_and_bound(
@@ -443,7 +443,11 @@ pub fn stable_replan(
     }
 
     let g: Vec<Option<TaskIdx>> = (0..inc.units.len()).map(|u| ground.get(u)).collect();
-    let mut chosen = if settings.from_scratch {
+    // From scratch, a proven best key that is acceptable is the answer.
+    let best_ok = settings.from_scratch && proven && meets(ctx, &best, &thr);
+    let mut chosen = if best_ok {
+        best.clone()
+    } else if settings.from_scratch {
         found
             .iter()
             .filter(|s| meets(ctx, s, &thr))
@@ -455,7 +459,9 @@ pub fn stable_replan(
     };
     // Scored with fresh sums.
     chosen = State::new(ctx, &chosen.placement());
-    if settings.exact && proven && !budget.exhausted() {
+    if best_ok {
+        // Nothing to search: no plan has a better key.
+    } else if settings.exact && proven && !budget.exhausted() {
         let key = chosen.key(ctx);
         let (goal, c) = if settings.from_scratch {
             (Goal::Key, Disruption::default())
