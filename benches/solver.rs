@@ -100,7 +100,73 @@ fn fmt_key(k: &ObjectiveKey) -> String {
     )
 }
 
+/// `ODDSBOARD_FIGURES=1` prints every section; a section's name (`reach`,
+/// `budget`, `replan`, `samples`, `baselines`) prints only that one.
+fn section(name: &str) -> bool {
+    std::env::var("ODDSBOARD_FIGURES").is_ok_and(|v| v == "1" || v == name)
+}
+
 fn figures() {
+    if section("reach") {
+        proof_reach();
+    }
+    if section("budget") {
+        key_after_budget();
+    }
+    if section("replan") {
+        replan_after_loss();
+    }
+    if section("samples") {
+        samples();
+    }
+    if section("baselines") {
+        baselines_side_by_side();
+    }
+}
+
+/// The exact re-plan (the rule, from the ground) on the bundled samples.
+fn samples() {
+    println!("== bundled samples, stable re-plan (default options, 10 s budget) ==");
+    for f in ["warehouse-fire", "river-flood", "building-collapse"] {
+        let path = format!("{}/sample-incidents/{f}.yaml", env!("CARGO_MANIFEST_DIR"));
+        let text = std::fs::read_to_string(&path).unwrap_or_default();
+        let Ok(inc) = oddsboard::model::parse_incident_str(&text, &path) else {
+            println!("  {f}: does not load");
+            continue;
+        };
+        for from_scratch in [false, true] {
+            let mut times = Vec::new();
+            let mut last = None;
+            for _ in 0..5 {
+                let r = run(
+                    &inc,
+                    &SolveOptions {
+                        budget: Duration::from_secs(10),
+                        from_scratch,
+                        ..SolveOptions::default()
+                    },
+                );
+                times.push(r.elapsed.as_secs_f64() * 1e3);
+                last = Some(r);
+            }
+            times.sort_by(f64::total_cmp);
+            if let Some(r) = last {
+                println!(
+                    "  {f} from_scratch={from_scratch}: proven={} p50 {:.1} ms (min {:.1}, max {:.1}), {} iterations, {} withdrawals, {} dispatches",
+                    r.proven_optimal,
+                    times[2],
+                    times[0],
+                    times[4],
+                    r.iterations,
+                    r.disruption.withdrawals,
+                    r.disruption.dispatches
+                );
+            }
+        }
+    }
+}
+
+fn proof_reach() {
     println!("== proof reach (from scratch, exact search at any size) ==");
     let sizes = [
         (12, 3, 2),
@@ -143,7 +209,9 @@ fn figures() {
             println!("  => identical={ident} budget={budget_s}s: largest proved {reach:?}");
         }
     }
+}
 
+fn key_after_budget() {
     println!("== key after a budget, 600 x 40 x 5 (from scratch, seed 0) ==");
     let big = incident(600, 40, 5, 1);
     for ms in [0u64, 100, 500, 2000] {
@@ -156,12 +224,25 @@ fn figures() {
             r.iterations
         );
     }
+}
 
+fn replan_after_loss() {
     println!("== re-plan after one loss, 100 x 15 x 4 (10 seeds) ==");
     let mut first = Vec::new();
     let mut settled = Vec::new();
+    let mut settled_slack0 = Vec::new();
     for seed in 0..10 {
         let (_, after) = loss_pair(seed);
+        // The rule without threshold searches (slack 0), for the cost of
+        // the sequential thresholds.
+        let r00 = run(
+            &after,
+            &SolveOptions {
+                slack: 0.0,
+                ..replan_options()
+            },
+        );
+        settled_slack0.push(r00.elapsed.as_secs_f64() * 1e3);
         let quick = SolveOptions {
             budget: Duration::ZERO,
             ..replan_options()
@@ -189,11 +270,13 @@ fn figures() {
             fmt_key(&r5.key)
         );
         println!(
-            "  seed {seed}: first proposal {:.2} ms ({} moves), settled {:.1} ms ({} moves, {})",
+            "  seed {seed}: first proposal {:.2} ms ({} moves), settled {:.1} ms ({} moves: {} withdrawals, {} dispatches; {})",
             first[first.len() - 1],
             r0.moves.len(),
             r.elapsed.as_secs_f64() * 1e3,
             r.moves.len(),
+            r.disruption.withdrawals,
+            r.disruption.dispatches,
             fmt_key(&r.key)
         );
     }
@@ -202,11 +285,14 @@ fn figures() {
         v[v.len() / 2]
     };
     println!(
-        "  p50 first proposal {:.2} ms, p50 settled {:.1} ms",
+        "  p50 first proposal {:.2} ms, p50 settled {:.1} ms, p50 settled with slack 0 {:.1} ms",
         p50(&mut first),
-        p50(&mut settled)
+        p50(&mut settled),
+        p50(&mut settled_slack0)
     );
+}
 
+fn baselines_side_by_side() {
     println!("== baselines side by side (from scratch, 1 s) ==");
     for (u, t, k) in [(30, 6, 3), (100, 15, 4)] {
         let inc = incident(u, t, k, 1);
@@ -265,8 +351,12 @@ criterion_group! {
 }
 
 fn main() {
-    if std::env::var_os("ODDSBOARD_FIGURES").is_some() {
+    if let Ok(v) = std::env::var("ODDSBOARD_FIGURES") {
         figures();
+        if v != "1" {
+            // One section asked for: no criterion run.
+            return;
+        }
     }
     solver();
     Criterion::default().configure_from_args().final_summary();

@@ -91,29 +91,29 @@ fn capped(inc: &Incident, key: &ObjectiveKey) -> [Option<f64>; 3] {
     out
 }
 
-/// The stable re-plan's per-tier thresholds (sequential slack, here with
-/// slack 0, see docs/solver.md) by enumeration: the best worst capped odds of
-/// life over every feasible plan; then of stabilization over the plans that
-/// keep life there; then of property over the plans that keep both.
+/// The re-plan's worst capped odds per tier by enumeration under the rule
+/// with slack 0 (docs/solver.md): thresholds entry by entry over the capped
+/// key are then the leximin-best capped key over every feasible plan.
 fn sequential_worst(inc: &Incident) -> [Option<f64>; 3] {
-    let mut plans: Vec<[Option<f64>; 3]> = all_placements(inc)
-        .iter()
-        .map(|p| capped(inc, &ObjectiveKey::of(inc, p)))
-        .collect();
-    let mut out = [None; 3];
-    for tier in Tier::ALL {
-        let i = tier.index();
-        let Some(best) = plans
+    let capped_cmp = |a: &ObjectiveKey, b: &ObjectiveKey| {
+        a.capped()
             .iter()
-            .filter_map(|w| w[i])
-            .max_by(|a, b| a.total_cmp(b))
-        else {
-            continue;
-        };
-        out[i] = Some(best);
-        plans.retain(|w| w[i].is_some_and(|v| v >= best || close(v, best)));
-    }
-    out
+            .zip(b.capped())
+            .map(|(x, y)| oddsboard::solver::key::cmp_ln(*x, *y))
+            .find(|o| *o != std::cmp::Ordering::Equal)
+            .unwrap_or(std::cmp::Ordering::Equal)
+    };
+    all_placements(inc)
+        .iter()
+        .map(|p| ObjectiveKey::of(inc, p))
+        .reduce(|a, b| {
+            if capped_cmp(&b, &a) == std::cmp::Ordering::Greater {
+                b
+            } else {
+                a
+            }
+        })
+        .map_or([None; 3], |k| capped(inc, &k))
 }
 
 fn close(a: f64, b: f64) -> bool {

@@ -203,3 +203,113 @@ fn plans_the_state_at_the_end_of_a_log() {
     assert_eq!(placement.len(), 3, "the lost unit is gone");
     assert!(!placement.contains_key("E1"));
 }
+
+/// Invented: a flooded-cellar rescue nobody on scene can help, a care home
+/// and a terrace evacuated by boats, a swift-water team and a sandbag crew
+/// idle in reserve, a bund short of sandbags.
+const CELLAR: &str = r#"
+incident: { name: Invented - Ferry Lane flash flood }
+traits: [ { id: evac, unit: persons/h }, { id: dive, unit: divers }, { id: bags, unit: bags/h } ]
+unit_types:
+  - { id: boat, traits: { evac: { mean: 30, sd: 6 } } }
+  - { id: swiftwater, traits: { evac: { mean: 14, sd: 4 } } }
+  - { id: sandbag, traits: { bags: { mean: 400, sd: 80 } } }
+units:
+  - { id: BT1, type: boat }
+  - { id: BT2, type: boat }
+  - { id: BT3, type: boat }
+  - { id: SW1, type: swiftwater }
+  - { id: SB1, type: sandbag }
+  - { id: SB2, type: sandbag }
+tasks:
+  - { id: cellar-rescue, tier: life, needs: { dive: 2 } }
+  - { id: care-home, tier: life, needs: { evac: 54 } }
+  - { id: terrace, tier: life, needs: { evac: 32 } }
+  - { id: bund, tier: stabilization, needs: { bags: 700 } }
+placement: { BT1: care-home, BT2: care-home, BT3: terrace, SB1: bund }
+"#;
+
+fn plan_json(text: &str, extra: &[&str]) -> serde_json::Value {
+    let f = file(text);
+    let mut args = vec!["plan", f.path().to_str().expect("path"), "--json"];
+    args.extend_from_slice(extra);
+    let out = Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args(&args)
+        .output()
+        .expect("runs");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).expect("JSON")
+}
+
+#[test]
+fn disruption_is_reported_beside_the_moves() {
+    let v = plan_json(CELLAR, &["--budget-ms", "20000", "--compare"]);
+    let moves = v["moves"].as_array().expect("moves");
+    let withdrawn = moves.iter().filter(|m| m["from"].is_string()).count();
+    let dispatched = moves
+        .iter()
+        .filter(|m| m["from"].is_null() && m["to"].is_string())
+        .count();
+    assert_eq!(v["withdrawals"], withdrawn);
+    assert_eq!(v["dispatches"], dispatched);
+    // The idle swift-water team goes to the terrace, nobody is withdrawn.
+    assert_eq!(v["placement"]["SW1"], "terrace");
+    assert_eq!(v["withdrawals"], 0);
+    let rows = v["compare"].as_array().expect("rows");
+    assert_eq!(rows[0]["verdict"], "recommended");
+    for r in &rows[1..] {
+        let verdict = r["verdict"].as_str().expect("verdict");
+        assert!(["worse", "within slack", "better"].contains(&verdict));
+        assert!(!r["why"].as_str().expect("why").is_empty());
+        assert!(r["mean_by_tier"]["life"].is_number());
+    }
+    // The ground leaves the terrace at 37 % against 76 % reachable: worse,
+    // and the reason names the entry.
+    let ground = rows.last().expect("ground row");
+    assert_eq!(ground["verdict"], "worse");
+    assert!(
+        ground["why"]
+            .as_str()
+            .expect("why")
+            .contains("life, 2nd worst")
+    );
+
+    let f = file(CELLAR);
+    Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args([
+            "plan",
+            f.path().to_str().expect("path"),
+            "--compare",
+            "--budget-ms",
+            "20000",
+        ])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains(
+            "Moves (2): 2 units dispatched from reserve",
+        ))
+        .stdout(predicate::str::contains("verdict"));
+}
+
+#[test]
+fn a_ground_already_acceptable_is_within_slack_and_kept() {
+    let text = CELLAR.replace(
+        "placement: { BT1: care-home, BT2: care-home, BT3: terrace, SB1: bund }",
+        "placement: { BT1: care-home, BT2: care-home, BT3: terrace, SW1: terrace, SB1: bund, SB2: bund }",
+    );
+    let v = plan_json(&text, &["--budget-ms", "20000", "--compare"]);
+    assert_eq!(v["moves"].as_array().expect("moves").len(), 0);
+    let rows = v["compare"].as_array().expect("rows");
+    let ground = rows.last().expect("ground row");
+    assert_eq!(ground["verdict"], "within slack");
+    assert_eq!(
+        ground["why"].as_str().expect("why"),
+        "within 1 %; same disruption, same odds"
+    );
+}

@@ -11,9 +11,8 @@ use crate::model::{Incident, Placement, Tier};
 use crate::odds::text::{pct, pct_detail};
 use crate::odds::view::{TaskView, placement_view, task_views, worst_by_tier};
 use crate::safety;
-use crate::solver::{
-    Move, ObjectiveKey, SolveOptions, SolveReport, baselines, moves_between, solve,
-};
+use crate::solver::stable::{Disruption, Verdict, disruption, unit_disruption, verdict};
+use crate::solver::{Move, ObjectiveKey, SolveOptions, SolveReport, baselines, solve};
 use serde::Serialize;
 use std::collections::BTreeMap;
 use std::path::PathBuf;
@@ -33,8 +32,10 @@ pub struct Args {
     /// Seed of the solver's random choices (same seed, same plan).
     #[arg(long, default_value_t = 0)]
     pub seed: u64,
-    /// Stability slack: plans within this relative share of the best plan's
-    /// worst odds per tier compete on fewest moves (0.01 = 1 %).
+    /// Slack of the rule: no task's odds (capped at its tier's secure level)
+    /// are given up by more than this share of the best they can reach;
+    /// among such plans the least disruption wins (0.01 = 1 %; 0 = plain
+    /// leximin).
     #[arg(long, default_value_t = 0.01)]
     pub slack: f64,
     /// Show the baselines (expected-value, mean-minus-spread, random) beside
@@ -71,16 +72,25 @@ struct CompareRow {
     name: String,
     /// Worst odds per tier with open tasks (tier → odds).
     worst_by_tier: BTreeMap<&'static str, f64>,
+    /// Mean odds per tier with open tasks (tier → odds).
+    mean_by_tier: BTreeMap<&'static str, f64>,
     min_odds: f64,
     /// Odds that every open task succeeds (product; the traits and tasks
     /// taken as independent).
     all_tasks_odds: f64,
     regimes: RegimeCounts,
     moves: usize,
+    withdrawals: usize,
+    dispatches: usize,
+    /// Meets every threshold of the rule.
+    acceptable: bool,
     solve_ms: f64,
-    /// This plan's key against the recommendation's: "better", "equal",
-    /// "worse".
-    key_vs_recommended: &'static str,
+    /// Against the recommendation, entry by entry within the slack:
+    /// "recommended", "worse", "within slack", "better".
+    verdict: &'static str,
+    /// Why, in words (which task decides, or why a plan within the slack
+    /// was not chosen).
+    why: String,
 }
 
 #[derive(Serialize)]
@@ -88,6 +98,10 @@ struct PlanJson<'a> {
     incident: &'a str,
     placement: BTreeMap<String, Option<String>>,
     moves: Vec<MoveView>,
+    /// Units taken off open tasks they are working.
+    withdrawals: usize,
+    /// Units sent to a task from reserve.
+    dispatches: usize,
     tasks: Vec<TaskView>,
     tasks_before: Vec<TaskView>,
     min_odds: f64,
@@ -141,12 +155,79 @@ fn min_odds(tasks: &[TaskView]) -> f64 {
     tasks.iter().map(|t| t.odds).fold(1.0, f64::min)
 }
 
+/// "1 unit" / "3 units".
+fn units_n(n: usize) -> String {
+    format!("{n} unit{}", if n == 1 { "" } else { "s" })
+}
+
+/// The disruption in words, withdrawals first.
+fn disruption_words(d: Disruption) -> String {
+    match (d.withdrawals, d.dispatches) {
+        (0, 0) => "nothing moved".into(),
+        (w, 0) => format!("{} withdrawn from working tasks", units_n(w)),
+        (0, n) => format!("{} dispatched from reserve", units_n(n)),
+        (w, n) => format!(
+            "{} withdrawn from working tasks, {} dispatched from reserve",
+            units_n(w),
+            units_n(n)
+        ),
+    }
+}
+
+/// The task behind capped entry `e` of `placement`'s key, and its odds:
+/// entries are each tier's tasks, worst first.
+fn entry_task(incident: &Incident, tasks: &[TaskView], key: &ObjectiveKey, e: usize) -> String {
+    let tiers = key.entry_tiers();
+    let Some(&tier) = tiers.get(e) else {
+        return "-".into();
+    };
+    let rank = tiers[..e].iter().filter(|t| **t == tier).count();
+    let mut in_tier: Vec<&TaskView> = tasks.iter().filter(|t| t.tier() == tier).collect();
+    in_tier.sort_by(|a, b| {
+        let l = |t: &TaskView| t.ln_odds.unwrap_or(f64::NEG_INFINITY);
+        l(a).total_cmp(&l(b)).then(a.id.cmp(&b.id))
+    });
+    in_tier.get(rank).map_or_else(
+        || "-".into(),
+        |t| {
+            let p = t.odds.min(incident.secure.get(tier));
+            format!("{} at {}", t.id, pct(p))
+        },
+    )
+}
+
+/// "life, worst" / "property, 2nd worst": which capped entry decides.
+fn entry_name(key: &ObjectiveKey, e: usize) -> String {
+    let tiers = key.entry_tiers();
+    let Some(&tier) = tiers.get(e) else {
+        return "-".into();
+    };
+    let rank = tiers[..e].iter().filter(|t| **t == tier).count() + 1;
+    let nth = match rank {
+        1 => String::new(),
+        2 => "2nd ".into(),
+        3 => "3rd ".into(),
+        n => format!("{n}th "),
+    };
+    format!("{}, {nth}worst", tier.as_str())
+}
+
+struct Recommended<'a> {
+    key: &'a ObjectiveKey,
+    tasks: Vec<TaskView>,
+    cost: Disruption,
+    thresholds: &'a [f64],
+    slack: f64,
+    from_scratch: bool,
+}
+
 fn compare_row(
     incident: &Incident,
     name: &str,
     placement: &Placement,
-    recommended: &ObjectiveKey,
+    rec: &Recommended,
     solve_ms: f64,
+    is_recommended: bool,
 ) -> CompareRow {
     let tasks = task_views(incident, placement);
     let key = ObjectiveKey::of(incident, placement);
@@ -154,42 +235,146 @@ fn compare_row(
         .into_iter()
         .map(|w| (w.tier, w.odds))
         .collect();
+    let mean = Tier::ALL
+        .iter()
+        .filter_map(|&tier| {
+            let v: Vec<f64> = tasks
+                .iter()
+                .filter(|t| t.tier() == tier)
+                .map(|t| t.odds)
+                .collect();
+            (!v.is_empty()).then(|| (tier.as_str(), v.iter().sum::<f64>() / v.len() as f64))
+        })
+        .collect();
     let ln_all: f64 = tasks
         .iter()
         .map(|t| t.ln_odds.unwrap_or(f64::NEG_INFINITY))
         .sum();
+    let cost = disruption(incident, &incident.placement, placement);
+    let acceptable = key.meets(rec.thresholds);
+    let slack_words = format!("within {} %", rec.slack * 100.0);
+    let short = |e: usize| {
+        format!(
+            "{}: {} is below its threshold {}",
+            entry_name(&key, e),
+            entry_task(incident, &tasks, &key, e),
+            pct(rec.thresholds[e].exp())
+        )
+    };
+    let (verdict_word, why) = if is_recommended {
+        ("recommended", disruption_words(cost))
+    } else {
+        let v = verdict(rec.key, &key, rec.slack);
+        let why = match v {
+            Verdict::Worse { entry } => format!(
+                "{}: {} against {}",
+                entry_name(&key, entry),
+                entry_task(incident, &tasks, &key, entry),
+                entry_task(incident, &rec.tasks, rec.key, entry)
+            ),
+            Verdict::WithinSlack | Verdict::Better { .. } => {
+                let lead = match v {
+                    Verdict::Better { entry } => format!(
+                        "{}: {} against {}, but ",
+                        entry_name(&key, entry),
+                        entry_task(incident, &tasks, &key, entry),
+                        entry_task(incident, &rec.tasks, rec.key, entry)
+                    ),
+                    _ => format!("{slack_words}; "),
+                };
+                let reason = if let Some(e) = key.first_short(rec.thresholds) {
+                    short(e)
+                } else if rec.from_scratch {
+                    match key.compare(rec.key) {
+                        std::cmp::Ordering::Greater => {
+                            "a better key (the search was not exhaustive)".into()
+                        }
+                        std::cmp::Ordering::Equal => "the same odds".into(),
+                        std::cmp::Ordering::Less => "lower odds further down the key".into(),
+                    }
+                } else if cost.withdrawals > rec.cost.withdrawals {
+                    format!(
+                        "needs {} more withdrawal{}",
+                        cost.withdrawals - rec.cost.withdrawals,
+                        if cost.withdrawals - rec.cost.withdrawals == 1 {
+                            ""
+                        } else {
+                            "s"
+                        }
+                    )
+                } else if cost.withdrawals == rec.cost.withdrawals
+                    && cost.dispatches > rec.cost.dispatches
+                {
+                    format!(
+                        "needs {} more dispatch{}",
+                        cost.dispatches - rec.cost.dispatches,
+                        if cost.dispatches - rec.cost.dispatches == 1 {
+                            ""
+                        } else {
+                            "es"
+                        }
+                    )
+                } else if cost == rec.cost {
+                    match key.compare(rec.key) {
+                        std::cmp::Ordering::Greater => {
+                            "same disruption, better odds (the search was not exhaustive)".into()
+                        }
+                        std::cmp::Ordering::Equal => "same disruption, same odds".into(),
+                        std::cmp::Ordering::Less => "same disruption, lower odds".into(),
+                    }
+                } else {
+                    format!(
+                        "less disruption ({}; the search was not exhaustive)",
+                        disruption_words(cost)
+                    )
+                };
+                lead + &reason
+            }
+        };
+        (v.as_str(), why)
+    };
     CompareRow {
         name: name.to_string(),
         worst_by_tier: worst,
+        mean_by_tier: mean,
         min_odds: min_odds(&tasks),
         all_tasks_odds: ln_all.exp(),
         regimes: RegimeCounts {
             hedge: tasks.iter().filter(|t| t.regime == Some("hedge")).count(),
             gamble: tasks.iter().filter(|t| t.regime == Some("gamble")).count(),
         },
-        moves: moves_between(&incident.placement, placement).len(),
+        moves: cost.withdrawals + cost.dispatches,
+        withdrawals: cost.withdrawals,
+        dispatches: cost.dispatches,
+        acceptable,
         solve_ms,
-        key_vs_recommended: match key.compare(recommended) {
-            std::cmp::Ordering::Greater => "better",
-            std::cmp::Ordering::Equal => "equal",
-            std::cmp::Ordering::Less => "worse",
-        },
+        verdict: verdict_word,
+        why,
     }
 }
 
 fn compare_rows(incident: &Incident, args: &Args, report: &SolveReport) -> Vec<CompareRow> {
     let ms = |d: Duration| d.as_secs_f64() * 1e3;
+    let rec = Recommended {
+        key: &report.key,
+        tasks: task_views(incident, &report.placement),
+        cost: report.disruption,
+        thresholds: &report.thresholds,
+        slack: args.slack,
+        from_scratch: args.from_scratch,
+    };
     let mut rows = vec![compare_row(
         incident,
         "recommended (risk-adaptive)",
         &report.placement,
-        &report.key,
+        &rec,
         ms(report.elapsed),
+        true,
     )];
     let mut timed = |name: String, f: &dyn Fn() -> Placement| {
         let start = Instant::now();
         let p = f();
-        let row = compare_row(incident, &name, &p, &report.key, ms(start.elapsed()));
+        let row = compare_row(incident, &name, &p, &rec, ms(start.elapsed()), false);
         rows.push(row);
     };
     timed("expected value (risk-neutral)".into(), &|| {
@@ -206,8 +391,9 @@ fn compare_rows(incident: &Incident, args: &Args, report: &SolveReport) -> Vec<C
         incident,
         "on the ground now",
         &incident.placement,
-        &report.key,
+        &rec,
         0.0,
+        false,
     ));
     rows
 }
@@ -281,6 +467,8 @@ pub fn run(args: Args) -> CliResult {
             incident: &incident.name,
             placement: placement_view(&incident, &report.placement),
             moves: move_views(&incident, &report.moves),
+            withdrawals: report.disruption.withdrawals,
+            dispatches: report.disruption.dispatches,
             min_odds: min_odds(&after),
             min_odds_before: min_odds(&before),
             tasks: after,
@@ -330,11 +518,20 @@ pub fn run(args: Args) -> CliResult {
 
     if report.moves.is_empty() {
         out.push_str(
-            "Moves: none. The placement on the ground is within the slack of the best plan.\n\n",
+            "Moves: none. The placement on the ground keeps every task within the slack of the best it can reach.\n\n",
         );
     } else {
-        out.push_str(&format!("Moves ({}):\n", report.moves.len()));
-        for m in &report.moves {
+        out.push_str(&format!(
+            "Moves ({}): {}\n",
+            report.moves.len(),
+            disruption_words(report.disruption)
+        ));
+        // Withdrawals first: they need disengagement and accountability.
+        let mut listed: Vec<&Move> = report.moves.iter().collect();
+        listed.sort_by_key(|m| {
+            std::cmp::Reverse(unit_disruption(&incident, m.from, m.to).withdrawals)
+        });
+        for m in listed {
             out.push_str(&format!(
                 "  {}: {} → {}\n",
                 incident.units[m.unit].id,
@@ -384,42 +581,53 @@ pub fn run(args: Args) -> CliResult {
     ));
 
     if let Some(rows) = &compare {
-        out.push_str("Compared (every plan scored by the same odds model):\n");
+        out.push_str(&format!(
+            "Compared (every plan scored by the same odds model; per tier worst / mean odds; verdict entry by entry within the {} % slack):\n",
+            args.slack * 100.0
+        ));
         let mut cols = Columns::new(
             &[
                 "plan",
                 "life",
                 "stab.",
                 "property",
-                "worst",
                 "all tasks",
                 "hedge/gamble",
-                "moves",
+                "withdrawn",
+                "dispatched",
                 "ms",
-                "vs rec.",
+                "verdict",
             ],
             &[false, true, true, true, true, true, true, true, true, false],
         );
         for r in rows {
-            let tier = |t: &str| {
-                r.worst_by_tier
-                    .get(t)
-                    .map_or_else(|| "-".to_string(), |p| pct(*p))
+            let tier = |t: &str| match (r.worst_by_tier.get(t), r.mean_by_tier.get(t)) {
+                (Some(w), Some(m)) => format!("{} / {}", pct(*w), pct(*m)),
+                _ => "-".to_string(),
             };
             cols.push(vec![
                 r.name.clone(),
                 tier("life"),
                 tier("stabilization"),
                 tier("property"),
-                pct(r.min_odds),
                 pct(r.all_tasks_odds),
                 format!("{}/{}", r.regimes.hedge, r.regimes.gamble),
-                r.moves.to_string(),
+                r.withdrawals.to_string(),
+                r.dispatches.to_string(),
                 format!("{:.1}", r.solve_ms),
-                r.key_vs_recommended.to_string(),
+                r.verdict.to_string(),
             ]);
         }
         out.push_str(&cols.render(2));
+        for r in rows.iter().skip(1) {
+            let text = wrap(
+                &format!("{}: {} — {}", r.name, r.verdict, r.why),
+                74,
+                "    ",
+            );
+            out.push_str("  ·");
+            out.push_str(text.get(3..).unwrap_or_default());
+        }
         out.push('\n');
     }
 

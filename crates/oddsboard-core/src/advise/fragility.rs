@@ -55,6 +55,10 @@ pub struct UnitLoss {
     pub single_point_of_failure: bool,
     /// Moves of the re-plan after the loss, counted from the ground.
     pub moves: usize,
+    /// Of those, units taken off open tasks they are working.
+    pub withdrawals: usize,
+    /// Of those, units sent to a task from reserve.
+    pub dispatches: usize,
     /// The re-plan after the loss is proven optimal.
     pub proven_optimal: bool,
     /// Set when no plan meets the constraints after the loss (e.g. the
@@ -151,6 +155,8 @@ pub fn unit_losses(
             to_gamble: Vec::new(),
             single_point_of_failure: false,
             moves: 0,
+            withdrawals: 0,
+            dispatches: 0,
             proven_optimal: false,
             infeasible: None,
             key: None,
@@ -181,6 +187,8 @@ pub fn unit_losses(
                 }
                 entry.after = tier_odds(&lost, &report.key);
                 entry.moves = report.moves.len();
+                entry.withdrawals = report.disruption.withdrawals;
+                entry.dispatches = report.disruption.dispatches;
                 entry.proven_optimal = report.proven_optimal;
                 entry.key = Some(report.key);
             }

@@ -13,34 +13,35 @@
 //! options in non-decreasing order, so each multiset of choices (a count
 //! vector per group) is visited once.
 //!
-//! Two goals: the best key, and (stable re-plan) the fewest moves from the
-//! ground among plans whose worst capped odds in each tier reach a
-//! threshold, ties to the better key.
+//! Two goals, each among the plans whose capped key entries reach the
+//! required thresholds (entry by entry; none for the plain best key): the
+//! best key under the context's caps and floors, and (stable re-plan) the
+//! least disruption from the ground (withdrawals, then dispatches), ties to
+//! the better key. A node is cut when the sorted bounds of its tasks miss a
+//! threshold: the key is monotone in every task's odds, so no completion
+//! can meet it.
 
 use super::Budget;
 use super::bound::{ratio_orders, task_ln_upper_bound};
-use super::key::{ObjectiveKey, cmp_ln, counts, ln_cap};
-use super::search::{Ctx, State, at_least};
+use super::key::{ObjectiveKey, cmp_ln, counts};
+use super::search::{Ctx, State};
+use super::stable::{Disruption, unit_disruption};
 use crate::model::{Placement, TaskIdx, UnitIdx};
 use std::collections::HashMap;
 
 /// What the search optimises.
 pub enum Goal {
-    /// The best key under the context's caps (the stable re-plan lowers
-    /// them to hold tiers at their thresholds).
+    /// The best key under the context's caps and floors.
     Key,
-    /// Fewest moves from `ground` among plans whose worst capped ln odds in
-    /// each tier is at least the threshold; ties to the better key.
-    FewestMoves {
-        ground: Vec<Option<TaskIdx>>,
-        thresholds: [Option<f64>; 3],
-    },
+    /// The least disruption from `ground`; ties to the better key.
+    LeastDisruption { ground: Vec<Option<TaskIdx>> },
 }
 
 pub struct Incumbent {
     pub state: State,
     pub key: ObjectiveKey,
-    pub moves: usize,
+    /// Disruption from the ground (zero for [`Goal::Key`]).
+    pub cost: Disruption,
 }
 
 pub struct ExactOutcome {
@@ -53,14 +54,16 @@ pub struct ExactOutcome {
 struct Search<'c, 'a> {
     ctx: &'c Ctx<'a>,
     goal: Goal,
+    /// Capped entries' thresholds every plan must reach (ln).
+    required: Vec<f64>,
     order: Vec<UnitIdx>,
     /// `same_as_prev[d]`: order[d] is interchangeable with order[d − 1].
     same_as_prev: Vec<bool>,
     /// Option preferred first for each unit (incumbent's or ground's).
     preferred: Vec<Option<TaskIdx>>,
     free: Vec<bool>,
-    /// Units among the free ones that must move (their ground place is no
-    /// longer allowed), for the moves bound.
+    /// Units among the free ones that must be withdrawn (their ground task
+    /// is open but no longer takes them), for the disruption bound.
     forced: Vec<bool>,
     forced_left: usize,
     ratio: Vec<Vec<UnitIdx>>,
@@ -78,20 +81,11 @@ fn option_index(o: Option<TaskIdx>) -> usize {
 
 impl Search<'_, '_> {
     fn thresholds_met(&self, ln: &[f64]) -> bool {
-        let Goal::FewestMoves { thresholds, .. } = &self.goal else {
-            return true;
-        };
-        let inc = self.ctx.inc;
-        (0..inc.tasks.len()).all(|t| {
-            if !counts(inc, t) {
-                return true;
-            }
-            let tier = inc.tasks[t].tier;
-            thresholds[tier.index()].is_none_or(|thr| at_least(ln[t].min(ln_cap(inc, tier)), thr))
-        })
+        self.required.is_empty()
+            || ObjectiveKey::from_ln_odds(self.ctx.inc, ln).meets(&self.required)
     }
 
-    fn bound_prunes(&mut self, state: &State, moves: usize) -> bool {
+    fn bound_prunes(&mut self, state: &State, cost: Disruption) -> bool {
         let inc = self.ctx.inc;
         for t in 0..inc.tasks.len() {
             if !counts(inc, t) {
@@ -116,12 +110,15 @@ impl Search<'_, '_> {
         let Some(best) = &self.best else {
             return false;
         };
-        let lower_moves = moves + self.forced_left;
-        if matches!(self.goal, Goal::FewestMoves { .. }) {
-            if lower_moves > best.moves {
+        if matches!(self.goal, Goal::LeastDisruption { .. }) {
+            let lower = Disruption {
+                withdrawals: cost.withdrawals + self.forced_left,
+                dispatches: cost.dispatches,
+            };
+            if lower > best.cost {
                 return true;
             }
-            if lower_moves < best.moves {
+            if lower < best.cost {
                 return false;
             }
         }
@@ -132,7 +129,7 @@ impl Search<'_, '_> {
     fn leaf(
         &mut self,
         state: &State,
-        moves: usize,
+        cost: Disruption,
         on_improve: &mut dyn FnMut(&State, &ObjectiveKey),
     ) {
         if !self.thresholds_met(&state.ln) {
@@ -143,8 +140,8 @@ impl Search<'_, '_> {
             None => true,
             Some(b) => match self.goal {
                 Goal::Key => key.better_than(&b.key),
-                Goal::FewestMoves { .. } => {
-                    moves < b.moves || (moves == b.moves && key.better_than(&b.key))
+                Goal::LeastDisruption { .. } => {
+                    cost < b.cost || (cost == b.cost && key.better_than(&b.key))
                 }
             },
         };
@@ -153,7 +150,7 @@ impl Search<'_, '_> {
             self.best = Some(Incumbent {
                 state: state.clone(),
                 key,
-                moves,
+                cost,
             });
         }
     }
@@ -163,7 +160,7 @@ impl Search<'_, '_> {
         state: &mut State,
         depth: usize,
         prev_option: usize,
-        moves: usize,
+        cost: Disruption,
         budget: &Budget,
         on_improve: &mut dyn FnMut(&State, &ObjectiveKey),
     ) {
@@ -176,10 +173,10 @@ impl Search<'_, '_> {
             return;
         }
         if depth == self.order.len() {
-            self.leaf(state, moves, on_improve);
+            self.leaf(state, cost, on_improve);
             return;
         }
-        if self.bound_prunes(state, moves) {
+        if self.bound_prunes(state, cost) {
             return;
         }
         let inc = self.ctx.inc;
@@ -209,7 +206,7 @@ impl Search<'_, '_> {
             self.forced_left -= 1;
         }
         let ground = match &self.goal {
-            Goal::FewestMoves { ground, .. } => Some(ground[u]),
+            Goal::LeastDisruption { ground } => Some(ground[u]),
             Goal::Key => None,
         };
         for o in options {
@@ -225,8 +222,8 @@ impl Search<'_, '_> {
                 }
                 state.apply_move(inc, u, Some(t));
             }
-            let step = usize::from(ground.is_some_and(|g| g != o));
-            self.dfs(state, depth + 1, oi, moves + step, budget, on_improve);
+            let step = ground.map_or(Disruption::default(), |g| unit_disruption(inc, g, o));
+            self.dfs(state, depth + 1, oi, cost + step, budget, on_improve);
             if o.is_some() {
                 state.apply_move(inc, u, None);
             }
@@ -245,6 +242,7 @@ impl Search<'_, '_> {
 pub fn branch_and_bound(
     ctx: &Ctx,
     goal: Goal,
+    required: &[f64],
     incumbent: Option<Incumbent>,
     budget: &Budget,
     node_limit: u64,
@@ -285,7 +283,7 @@ pub fn branch_and_bound(
             .fold(0.0, f64::max)
     };
     let ground_of = |u: UnitIdx| match &goal {
-        Goal::FewestMoves { ground, .. } => ground[u],
+        Goal::LeastDisruption { ground } => ground[u],
         Goal::Key => None,
     };
     let mut groups: HashMap<Vec<u64>, usize> = HashMap::new();
@@ -326,15 +324,16 @@ pub fn branch_and_bound(
                 preferred.clone_from(&b.state.place);
             }
         }
-        Goal::FewestMoves { ground, .. } => preferred.clone_from(ground),
+        Goal::LeastDisruption { ground } => preferred.clone_from(ground),
     }
     let mut free = vec![false; n];
     let mut forced = vec![false; n];
     let mut forced_left = 0;
     for &u in &order {
         free[u] = true;
-        if let Goal::FewestMoves { ground, .. } = &goal
+        if let Goal::LeastDisruption { ground } = &goal
             && let Some(g) = ground[u]
+            && counts(inc, g)
             && !ctx.allowed_on[u][g]
         {
             forced[u] = true;
@@ -342,15 +341,17 @@ pub fn branch_and_bound(
         }
     }
     // Moves of pinned and out-of-service units are fixed.
-    let base_moves = match &goal {
-        Goal::FewestMoves { ground, .. } => (0..n)
-            .filter(|u| !free[*u] && ground[*u] != start.get(*u))
-            .count(),
-        Goal::Key => 0,
+    let base_cost = match &goal {
+        Goal::LeastDisruption { ground } => (0..n)
+            .filter(|u| !free[*u])
+            .map(|u| unit_disruption(inc, ground[u], start.get(u)))
+            .fold(Disruption::default(), |a, b| a + b),
+        Goal::Key => Disruption::default(),
     };
     let mut search = Search {
         ctx,
         goal,
+        required: required.to_vec(),
         order,
         same_as_prev,
         preferred,
@@ -365,7 +366,7 @@ pub fn branch_and_bound(
         buf: Vec::new(),
         ub: vec![0.0; inc.tasks.len()],
     };
-    search.dfs(&mut state, 0, 0, base_moves, budget, on_improve);
+    search.dfs(&mut state, 0, 0, base_cost, budget, on_improve);
     ExactOutcome {
         complete: !search.aborted,
         nodes: search.nodes,

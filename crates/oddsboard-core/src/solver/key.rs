@@ -41,6 +41,12 @@ pub fn cmp_ln(a: f64, b: f64) -> Ordering {
     }
 }
 
+/// Is ln odds `a` at least threshold `t` (with the tolerance)? A threshold
+/// of −∞ is met by anything.
+pub fn reaches(a: f64, t: f64) -> bool {
+    t == f64::NEG_INFINITY || a >= t - LN_TOLERANCE * t.abs().max(1.0)
+}
+
 /// Does task `t` count in the objective?
 pub fn counts(incident: &Incident, t: TaskIdx) -> bool {
     incident.tasks[t].is_open()
@@ -167,6 +173,66 @@ impl ObjectiveKey {
             start += len;
         }
         out
+    }
+
+    /// Number of capped entries (open tasks, every tier).
+    pub fn capped_len(&self) -> usize {
+        self.tier_len.iter().sum()
+    }
+
+    /// The capped part: tier by tier, each tier's capped ln odds ascending.
+    pub fn capped(&self) -> &[f64] {
+        &self.entries[..self.capped_len()]
+    }
+
+    /// The tier of each capped entry, in order.
+    pub fn entry_tiers(&self) -> Vec<Tier> {
+        Tier::ALL
+            .iter()
+            .zip(self.tier_len)
+            .flat_map(|(t, n)| std::iter::repeat_n(*t, n))
+            .collect()
+    }
+
+    /// The key with its first `floors.len()` capped entries held at most at
+    /// the given thresholds: every plan meeting them ties there, so the key
+    /// then ranks by the next entry (how a threshold's best value is found).
+    /// Monotone in every task's odds, like the key itself.
+    pub fn held(mut self, floors: &[f64]) -> Self {
+        for (e, f) in self.entries.iter_mut().zip(floors) {
+            if *e > *f {
+                *e = *f;
+            }
+        }
+        self
+    }
+
+    /// [`Self::held`], and every entry after the first free one set equal
+    /// (0): the key then ranks plans by that entry alone, which is all a
+    /// threshold search needs (ties there need no further search).
+    pub fn held_focus(self, floors: &[f64]) -> Self {
+        let mut k = self.held(floors);
+        for e in k.entries.iter_mut().skip(floors.len() + 1) {
+            *e = 0.0;
+        }
+        k
+    }
+
+    /// Does every capped entry reach its threshold (`thresholds[i]` for
+    /// entry i; entries past the list are free)?
+    pub fn meets(&self, thresholds: &[f64]) -> bool {
+        self.capped()
+            .iter()
+            .zip(thresholds)
+            .all(|(e, t)| reaches(*e, *t))
+    }
+
+    /// The first capped entry below its threshold, if any.
+    pub fn first_short(&self, thresholds: &[f64]) -> Option<usize> {
+        self.capped()
+            .iter()
+            .zip(thresholds)
+            .position(|(e, t)| !reaches(*e, *t))
     }
 
     /// Worst odds over all open tasks (1 when there is none).

@@ -21,11 +21,13 @@
 //! 3. on small incidents (at most [`SolveOptions::exact_max_units`] movable
 //!    units) branch and bound over the units proves the best key
 //!    ([`exact`]);
-//! 4. unless `from_scratch`, the stable re-plan ([`stable`]): thresholds set
-//!    tier by tier (sequential slack: each tier's best worst odds among the
-//!    plans meeting the thresholds above, less the slack), then the fewest
-//!    moves from the ground among plans meeting them (exactly by branch and
-//!    bound when every search before finished, heuristically otherwise).
+//! 4. the recommendation rule ([`stable`]): thresholds entry by entry over
+//!    the capped key (sequential ε-lexicographic: each entry's best value
+//!    among the plans meeting the thresholds before it, less the slack);
+//!    among the plans meeting them all, the least disruption from the ground
+//!    (fewest withdrawals, then dispatches, then the better key), or from
+//!    scratch the best key. Exactly by branch and bound when every search
+//!    before finished, heuristically otherwise.
 //!
 //! Invariant: the solver never reads the clock except through its budget,
 //! draws random numbers only from generators seeded from the options, and
@@ -52,9 +54,9 @@ pub struct SolveOptions {
     pub budget: Duration,
     /// Seed of every random choice. Default 0.
     pub seed: u64,
-    /// Stability slack, relative: plans whose worst capped odds in every tier
-    /// are at least (1 − slack) × the best plan's compete on fewest moves.
-    /// Default 0.01.
+    /// Slack of the rule, relative: each capped key entry's threshold is
+    /// (1 − slack) × the best it reaches while the entries before it meet
+    /// theirs; 0 is plain leximin. Default 0.01.
     pub slack: f64,
     /// Ignore the placement on the ground (no stability). Default false.
     pub from_scratch: bool,
@@ -126,9 +128,14 @@ pub struct SolveReport {
     pub placement: Placement,
     /// Moves from `incident.placement` (the ground) to `placement`.
     pub moves: Vec<Move>,
+    /// What the moves disturb: withdrawals, then dispatches.
+    pub disruption: stable::Disruption,
     pub key: ObjectiveKey,
-    /// True only when the search proved it: the best key is optimal and
-    /// (unless from scratch) no plan within the slack needs fewer moves.
+    /// The thresholds of the capped key entries (ln, key order) that every
+    /// acceptable plan meets.
+    pub thresholds: Vec<f64>,
+    /// True only when the search proved it: every threshold is exact and no
+    /// acceptable plan has less disruption (from scratch: a better key).
     pub proven_optimal: bool,
     /// An upper bound on the worst odds (over all open tasks) any feasible
     /// plan can reach.
@@ -296,7 +303,7 @@ pub fn solve(
             max_rounds: u64::MAX,
         }
     };
-    let key_budget = if stable && !exact {
+    let key_budget = if !exact {
         budget.share(0.55)
     } else {
         budget.share(1.0)
@@ -312,19 +319,20 @@ pub fn solve(
     iterations += outcome.iterations;
     let mut stopped_by_budget = outcome.stopped_by_budget;
     let mut best_state = outcome.best;
-    let mut best_key = outcome.best_key;
+    let best_key = outcome.best_key;
 
     // 3. Exact search.
     let mut key_proven = false;
     if exact && !budget.exhausted() {
-        let inc_moves = 0;
+        let inc_moves = stable::Disruption::default();
         let out = exact::branch_and_bound(
             &ctx,
             exact::Goal::Key,
+            &[],
             Some(exact::Incumbent {
                 state: best_state.clone(),
                 key: best_key.clone(),
-                moves: inc_moves,
+                cost: inc_moves,
             }),
             &budget,
             options.exact_node_limit,
@@ -335,33 +343,29 @@ pub fn solve(
         stopped_by_budget |= !out.complete;
         if let Some(b) = out.best {
             best_state = b.state;
-            best_key = b.key;
         }
     }
 
-    // 4. Stability: sequential thresholds, then the fewest moves.
-    let mut proven = key_proven;
-    let mut chosen = best_state.clone();
-    if stable {
-        let out = stable::stable_replan(
-            &ctx,
-            &inc.placement,
-            &best_state,
-            &best_key,
-            &stable::StableSettings {
-                slack: options.slack,
-                seed: options.seed,
-                exact: key_proven,
-                node_limit: options.exact_node_limit,
-                stale_rounds: options.stale_rounds,
-            },
-            &budget,
-        );
-        iterations += out.iterations;
-        proven = out.proven;
-        stopped_by_budget |= out.stopped_by_budget;
-        chosen = out.state;
-    }
+    // 4. The rule: thresholds entry by entry, then the least disruption
+    // (from scratch: the best key) among acceptable plans.
+    let out = stable::stable_replan(
+        &ctx,
+        &inc.placement,
+        &best_state,
+        &stable::StableSettings {
+            slack: options.slack,
+            seed: options.seed,
+            exact: key_proven,
+            node_limit: options.exact_node_limit,
+            stale_rounds: options.stale_rounds,
+            from_scratch: options.from_scratch,
+        },
+        &budget,
+    );
+    iterations += out.iterations;
+    let proven = out.proven;
+    stopped_by_budget |= out.stopped_by_budget;
+    let chosen = out.state;
 
     let placement = chosen.placement();
     let key = ObjectiveKey::of(inc, &placement);
@@ -376,6 +380,8 @@ pub fn solve(
     };
     Ok(SolveReport {
         moves: moves_between(&inc.placement, &placement),
+        disruption: stable::disruption(inc, &inc.placement, &placement),
+        thresholds: out.thresholds,
         placement,
         key,
         proven_optimal: proven,

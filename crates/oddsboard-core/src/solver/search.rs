@@ -43,6 +43,12 @@ pub struct Ctx<'a> {
     /// Each tier's cap in the key: ln of its secure level, or lower when
     /// the stable re-plan holds a tier at its threshold.
     pub caps: LnCaps,
+    /// Thresholds holding the first capped entries of the key (see
+    /// [`ObjectiveKey::held`]); empty for the plain key.
+    pub floors: Vec<f64>,
+    /// With floors: rank by the first free entry only
+    /// ([`ObjectiveKey::held_focus`]).
+    pub focus: bool,
 }
 
 impl<'a> Ctx<'a> {
@@ -90,6 +96,28 @@ impl<'a> Ctx<'a> {
             n_groups: groups.len(),
             group,
             caps: ln_caps(inc),
+            floors: Vec::new(),
+            focus: false,
+        }
+    }
+
+    /// The same incident ranked with the first capped entries held at
+    /// `floors`.
+    pub fn with_floors(&self, floors: &[f64]) -> Self {
+        Ctx {
+            floors: floors.to_vec(),
+            focus: false,
+            ..self.clone()
+        }
+    }
+
+    /// Ranked by the first capped entry after `floors` alone, the entries
+    /// before it held at `floors`: what a threshold's search maximises.
+    pub fn with_focus(&self, floors: &[f64]) -> Self {
+        Ctx {
+            floors: floors.to_vec(),
+            focus: true,
+            ..self.clone()
         }
     }
 
@@ -116,7 +144,14 @@ impl<'a> Ctx<'a> {
 
     /// Key of the ln odds `ln` under this context's caps.
     pub fn key_of(&self, ln: &[f64]) -> ObjectiveKey {
-        ObjectiveKey::from_ln_odds_capped(self.inc, ln, &self.caps)
+        let key = ObjectiveKey::from_ln_odds_capped(self.inc, ln, &self.caps);
+        if self.focus {
+            key.held_focus(&self.floors)
+        } else if self.floors.is_empty() {
+            key
+        } else {
+            key.held(&self.floors)
+        }
     }
 
     /// The placement `start` made feasible: pins applied, units that cannot
@@ -296,6 +331,18 @@ struct Scored {
 
 /// Compares the plans after two candidates (Greater: `a` is better).
 fn cmp_candidates(ctx: &Ctx, state: &State, a: &Scored, b: &Scored) -> Ordering {
+    if !ctx.floors.is_empty() || ctx.focus {
+        // Held entries depend on positions, not only on the tasks touched:
+        // compare full keys.
+        let with = |s: &Scored| {
+            let mut ln = state.ln.clone();
+            for c in &s.changes[..s.n] {
+                ln[c.task] = c.after;
+            }
+            ctx.key_of(&ln)
+        };
+        return with(a).compare(&with(b));
+    }
     let mut ch: [TaskChange; 4] = [TaskChange {
         task: 0,
         before: 0.0,

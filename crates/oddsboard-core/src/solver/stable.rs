@@ -1,115 +1,200 @@
-//! Stable re-plan (SPEC §3 Stability): few moves from the ground among the
-//! plans within the slack of the best, then the better key.
+//! The recommendation rule (SPEC §3 Stability, issue 10): acceptable plans,
+//! then the least disruption.
 //!
-//! **Sequential slack.** The thresholds are set tier by tier, highest first:
+//! **Thresholds, entry by entry (sequential ε-lexicographic).** The capped
+//! part of the key is a list of entries: tier by tier, the tasks' ln odds
+//! capped at the tier's secure level, ascending. For entry e = 1, 2, … in
+//! that order, best_e is the highest value entry e reaches over the feasible
+//! plans that meet the thresholds of entries 1…e−1, and threshold_e =
+//! best_e + ln(1 − slack). A plan is *acceptable* when every entry reaches
+//! its threshold: no task, worst or not, is given up by more than the slack.
+//! Slack 0 is plain leximin.
 //!
-//! * b_life = the best worst capped life odds of any plan (the best key's
-//!   first entry);
-//! * b_stab = the best worst capped stabilization odds over the plans whose
-//!   worst capped life odds are at least (1 − slack)·b_life;
-//! * b_prop = the best worst capped property odds over the plans that meet
-//!   both thresholds above.
+//! best_e is found as the best key with the entries before it held at their
+//! thresholds ([`ObjectiveKey::held`]): plans meeting them tie there, so the
+//! key ranks by entry e first. On small incidents the branch and bound
+//! proves it (nodes whose sorted bounds miss a threshold are cut); on large
+//! ones the local search approximates it and the result is not proven.
 //!
-//! A plan is within the slack when each tier's worst capped odds reach
-//! (1 − slack)·b of that tier. The slack granted to a higher tier frees
-//! units (the ground often keeps a life task a little below the best plan's
-//! odds without the unit that lifted it); measuring a lower tier against the
-//! best plan's, which spent that unit above, would let the ground leave a
-//! lower task at poor odds with units idle in reserve. Each b is at least
-//! the best plan's own worst odds in that tier (the best plan meets every
-//! threshold above it), so the plans accepted also lie within the slack of
-//! the best plan in every tier.
-//!
-//! Each b is found as the best key with the tiers above held at their
-//! thresholds: capping a tier at its threshold (in ln space) makes every
-//! plan that meets it tie on that tier, so the key then ranks by the next
-//! tier's worst capped odds first. The same searches as for the best key do
-//! the work ([`super::search::local_search`], and on small incidents
-//! [`super::exact::branch_and_bound`] with proof).
-//!
-//! Then the fewest moves: exactly by branch and bound when every search
-//! before it was exhaustive, otherwise the better of two heuristic
-//! candidates (fewer moves, then better key):
-//! 1. the plan that set the last threshold, with moved units sent back to
-//!    their ground places one by one while the thresholds still hold;
-//! 2. the ground itself, repaired by best-improvement steps (ranked with
-//!    every tier capped at its threshold, so the tasks below their
-//!    thresholds come first) until all reach them, then pruned the same way.
+//! **Then the least disruption** among acceptable plans: fewest withdrawals
+//! (a unit taken off an open task it is working), then fewest dispatches (a
+//! unit sent to a task from reserve, or from a closed task), then the better
+//! key. From scratch the disruption step is skipped: the best key among the
+//! acceptable plans.
 
+use super::Budget;
 use super::exact::{self, Goal, Incumbent};
-use super::key::{ObjectiveKey, counts, ln_cap};
-use super::search::{Ctx, SearchLimits, State, apply_step, at_least, local_search};
-use super::{Budget, moves_between};
-use crate::model::{Placement, TaskIdx};
+use super::key::{ObjectiveKey, counts, reaches};
+use super::search::{Ctx, SearchLimits, State, apply_step, local_search};
+use crate::model::{Incident, Placement, TaskIdx};
+use std::ops::Add;
 
-/// Worst capped ln odds per tier must reach these.
-pub type Thresholds = [Option<f64>; 3];
-
-/// Does every counted task reach its tier's threshold (capped at its
-/// secure level)?
-pub fn meets(ctx: &Ctx, ln: &[f64], thr: &Thresholds) -> bool {
-    let inc = ctx.inc;
-    (0..inc.tasks.len()).all(|t| {
-        if !counts(inc, t) {
-            return true;
-        }
-        let tier = inc.tasks[t].tier;
-        thr[tier.index()].is_none_or(|th| at_least(ln[t].min(ln_cap(inc, tier)), th))
-    })
+/// What a plan disturbs on the ground. Ordered as the rule ranks it:
+/// withdrawals first, then dispatches.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, PartialOrd, Ord)]
+pub struct Disruption {
+    /// Units taken off an open task they are working (to another task or
+    /// to reserve).
+    pub withdrawals: usize,
+    /// Units sent to a task from reserve (or from a closed task).
+    pub dispatches: usize,
 }
 
-fn moves(state: &State, ground: &[Option<TaskIdx>]) -> usize {
+impl Add for Disruption {
+    type Output = Disruption;
+    fn add(self, o: Disruption) -> Disruption {
+        Disruption {
+            withdrawals: self.withdrawals + o.withdrawals,
+            dispatches: self.dispatches + o.dispatches,
+        }
+    }
+}
+
+/// What sending one unit from `ground` to `to` disturbs.
+pub fn unit_disruption(inc: &Incident, ground: Option<TaskIdx>, to: Option<TaskIdx>) -> Disruption {
+    if ground == to {
+        return Disruption::default();
+    }
+    match ground {
+        Some(g) if g < inc.tasks.len() && counts(inc, g) => Disruption {
+            withdrawals: 1,
+            dispatches: 0,
+        },
+        _ => Disruption {
+            withdrawals: 0,
+            dispatches: usize::from(to.is_some()),
+        },
+    }
+}
+
+/// What `plan` disturbs compared with `ground`.
+pub fn disruption(inc: &Incident, ground: &Placement, plan: &Placement) -> Disruption {
+    (0..inc.units.len())
+        .map(|u| unit_disruption(inc, ground.get(u), plan.get(u)))
+        .fold(Disruption::default(), |a, b| a + b)
+}
+
+/// Thresholds of the capped entries, ln, one per entry in key order.
+pub type Thresholds = Vec<f64>;
+
+/// threshold = best + ln(1 − slack); −∞ stays −∞.
+fn lowered(best: f64, ln_keep: f64) -> f64 {
+    if best == f64::NEG_INFINITY {
+        best
+    } else {
+        best + ln_keep
+    }
+}
+
+/// The thresholds computed over a finite set of plans (their keys): the
+/// rule applied to the plans found, as the heuristic path uses it.
+pub fn thresholds_over(keys: &[ObjectiveKey], slack: f64) -> Thresholds {
+    let ln_keep = (1.0 - slack.clamp(0.0, 1.0)).ln();
+    let n = keys.first().map_or(0, ObjectiveKey::capped_len);
+    let mut thr = Vec::with_capacity(n);
+    for e in 0..n {
+        let best = keys
+            .iter()
+            .filter(|k| k.meets(&thr))
+            .map(|k| k.capped()[e])
+            .fold(f64::NEG_INFINITY, f64::max);
+        thr.push(lowered(best, ln_keep));
+    }
+    thr
+}
+
+fn meets(ctx: &Ctx, state: &State, thr: &[f64]) -> bool {
+    ObjectiveKey::from_ln_odds(ctx.inc, &state.ln).meets(thr)
+}
+
+fn cost(ctx: &Ctx, state: &State, ground: &[Option<TaskIdx>]) -> Disruption {
     state
         .place
         .iter()
         .zip(ground)
-        .filter(|(a, b)| a != b)
-        .count()
+        .map(|(p, g)| unit_disruption(ctx.inc, *g, *p))
+        .fold(Disruption::default(), |a, b| a + b)
 }
 
-/// Sends moved units back to their ground places while the thresholds hold.
-pub fn prune_toward_ground(
-    ctx: &Ctx,
-    state: &mut State,
-    ground: &[Option<TaskIdx>],
-    thr: &Thresholds,
-) {
+/// Sends units back to their ground places while the plan stays
+/// acceptable: withdrawals are undone first, then dispatches.
+pub fn prune_toward_ground(ctx: &Ctx, state: &mut State, ground: &[Option<TaskIdx>], thr: &[f64]) {
     let inc = ctx.inc;
     loop {
         let mut changed = false;
-        for &u in &ctx.movable {
-            let (from, to) = (state.place[u], ground[u]);
-            if from == to {
-                continue;
-            }
-            if let Some(t) = to
-                && (!ctx.allowed_on[u][t] || state.tallies[t].count() >= ctx.max_units[t])
-            {
-                continue;
-            }
-            if from.is_none() && state.reserve <= ctx.reserve_min {
-                continue;
-            }
-            state.apply_move(inc, u, to);
-            if meets(ctx, &state.ln, thr) {
-                changed = true;
-            } else {
-                state.apply_move(inc, u, from);
+        for withdrawals in [true, false] {
+            for &u in &ctx.movable {
+                let (from, to) = (state.place[u], ground[u]);
+                if from == to || to.is_some() != withdrawals {
+                    continue;
+                }
+                if let Some(t) = to
+                    && (!ctx.allowed_on[u][t] || state.tallies[t].count() >= ctx.max_units[t])
+                {
+                    continue;
+                }
+                if from.is_none() && state.reserve <= ctx.reserve_min {
+                    continue;
+                }
+                state.apply_move(inc, u, to);
+                if meets(ctx, state, thr) {
+                    changed = true;
+                } else {
+                    state.apply_move(inc, u, from);
+                }
             }
         }
-        if !changed {
+        if !changed && !prune_pairs(ctx, state, ground, thr) {
             return;
         }
     }
 }
 
-/// The heuristic stable plan under `ctx`'s own caps for the final key;
-/// `leader` must meet the thresholds.
+/// Sends two moved units back to their ground places at once (e.g. two
+/// units that traded places) if the plan stays acceptable and feasible.
+/// Returns whether a pair went back.
+fn prune_pairs(ctx: &Ctx, state: &mut State, ground: &[Option<TaskIdx>], thr: &[f64]) -> bool {
+    let inc = ctx.inc;
+    let moved: Vec<usize> = ctx
+        .movable
+        .iter()
+        .copied()
+        .filter(|&u| state.place[u] != ground[u] && ground[u].is_none_or(|t| ctx.allowed_on[u][t]))
+        .collect();
+    let fits =
+        |s: &State, t: Option<TaskIdx>| t.is_none_or(|t| s.tallies[t].count() <= ctx.max_units[t]);
+    for (i, &u) in moved.iter().enumerate() {
+        for &v in &moved[i + 1..] {
+            let (fu, fv) = (state.place[u], state.place[v]);
+            // Through reserve, so no task is over its maximum in between.
+            state.apply_move(inc, u, None);
+            state.apply_move(inc, v, None);
+            state.apply_move(inc, u, ground[u]);
+            state.apply_move(inc, v, ground[v]);
+            let ok = fits(state, ground[u])
+                && fits(state, ground[v])
+                && state.reserve >= ctx.reserve_min
+                && meets(ctx, state, thr);
+            if ok {
+                return true;
+            }
+            state.apply_move(inc, u, None);
+            state.apply_move(inc, v, None);
+            state.apply_move(inc, u, fu);
+            state.apply_move(inc, v, fv);
+        }
+    }
+    false
+}
+
+/// The heuristic least-disruption plan; `leader` must be acceptable. The
+/// better (less disruption, then key) of: `leader` pruned toward the ground,
+/// and the ground repaired until acceptable, then pruned.
 pub fn stable_plan(
     ctx: &Ctx,
     ground: &Placement,
     leader: &State,
-    thr: &Thresholds,
+    thr: &[f64],
     budget: &Budget,
 ) -> State {
     let inc = ctx.inc;
@@ -117,18 +202,13 @@ pub fn stable_plan(
     let mut from_leader = leader.clone();
     prune_toward_ground(ctx, &mut from_leader, g, thr);
 
-    // Repair steps are ranked with every tier capped at its threshold: a
-    // task below its threshold is then a bottleneck, one above is done.
-    let mut caps = ctx.caps;
-    for (c, t) in caps.iter_mut().zip(thr) {
-        if let Some(t) = t {
-            *c = c.min(*t);
-        }
-    }
-    let held = ctx.with_caps(caps);
+    // Repair steps are ranked with each tier capped at its highest
+    // threshold (fast, separable): a task below it is a bottleneck.
+    let tiers = ObjectiveKey::from_ln_odds(inc, &leader.ln).entry_tiers();
+    let held = ctx.with_caps(top_caps(ctx, &tiers, thr));
     let mut from_ground = State::new(ctx, &ctx.repair(ground));
     let mut iterations = 0;
-    let mut ok = meets(ctx, &from_ground.ln, thr);
+    let mut ok = meets(ctx, &from_ground, thr);
     let step_limit = 4 * inc.units.len() + 16;
     for _ in 0..step_limit {
         if ok || budget.exhausted() {
@@ -145,21 +225,75 @@ pub fn stable_plan(
             }
             None => break,
         }
-        ok = meets(ctx, &from_ground.ln, thr);
+        ok = meets(ctx, &from_ground, thr);
     }
+    let mut best = from_leader;
+    let mut candidates = vec![walk_toward(ctx, ground, leader, thr)];
     if ok {
-        prune_toward_ground(ctx, &mut from_ground, g, thr);
-        let (ma, mb) = (moves(&from_ground, g), moves(&from_leader, g));
-        let better =
-            ma < mb || (ma == mb && from_ground.key(ctx).better_than(&from_leader.key(ctx)));
-        if better {
-            return from_ground;
+        candidates.push(Some(from_ground));
+    }
+    for mut c in candidates.into_iter().flatten() {
+        prune_toward_ground(ctx, &mut c, g, thr);
+        let (ca, cb) = (cost(ctx, &c, g), cost(ctx, &best, g));
+        if ca < cb || (ca == cb && c.key(ctx).better_than(&best.key(ctx))) {
+            best = c;
         }
     }
-    from_leader
+    best
 }
 
-/// How the stable re-plan runs.
+/// From the ground, the leader's placements one unit at a time, each time
+/// the one that most raises the key with every entry held at its
+/// threshold, until the plan is acceptable (at worst the leader itself).
+fn walk_toward(ctx: &Ctx, ground: &Placement, leader: &State, thr: &[f64]) -> Option<State> {
+    let inc = ctx.inc;
+    let held = ctx.with_floors(thr);
+    let mut s = State::new(ctx, &ctx.repair(ground));
+    for _ in 0..=ctx.movable.len() {
+        if meets(ctx, &s, thr) {
+            return Some(s);
+        }
+        let mut best: Option<(usize, ObjectiveKey)> = None;
+        for &u in &ctx.movable {
+            let (from, to) = (s.place[u], leader.place[u]);
+            if from == to
+                || to.is_some_and(|t| s.tallies[t].count() >= ctx.max_units[t])
+                || (from.is_none() && s.reserve <= ctx.reserve_min)
+            {
+                continue;
+            }
+            s.apply_move(inc, u, to);
+            let k = s.key(&held);
+            s.apply_move(inc, u, from);
+            if best.as_ref().is_none_or(|(_, bk)| k.better_than(bk)) {
+                best = Some((u, k));
+            }
+        }
+        let (u, _) = best?;
+        s.apply_move(inc, u, leader.place[u]);
+    }
+    meets(ctx, &s, thr).then_some(s)
+}
+
+/// Each tier's cap lowered to its highest threshold so far: a plan whose
+/// tasks all reach it ties on that tier. Used where the held key
+/// ([`ObjectiveKey::held`]) would be too slow (it is not separable).
+fn top_caps(ctx: &Ctx, tiers: &[crate::model::Tier], thr: &[f64]) -> super::key::LnCaps {
+    let mut top: [Option<f64>; 3] = [None; 3];
+    for (t, th) in tiers.iter().zip(thr) {
+        let x = &mut top[t.index()];
+        *x = Some(x.map_or(*th, |v| v.max(*th)));
+    }
+    let mut caps = ctx.caps;
+    for (c, t) in caps.iter_mut().zip(top) {
+        if let Some(t) = t {
+            *c = c.min(t);
+        }
+    }
+    caps
+}
+
+/// How the rule is applied.
 pub struct StableSettings {
     pub slack: f64,
     pub seed: u64,
@@ -168,27 +302,21 @@ pub struct StableSettings {
     pub node_limit: u64,
     /// Stale rounds of each heuristic local search when not exact.
     pub stale_rounds: u64,
+    /// Skip the disruption step: the best key among acceptable plans.
+    pub from_scratch: bool,
 }
 
 pub struct StableOutcome {
     pub state: State,
-    /// Every threshold and the fewest moves were found by exhaustive search.
+    /// Every threshold and the final choice were found by exhaustive search.
     pub proven: bool,
     pub iterations: u64,
     pub stopped_by_budget: bool,
-    /// The thresholds used (ln), per tier.
+    /// The thresholds used (ln), one per capped entry.
     pub thresholds: Thresholds,
 }
 
-/// Worst capped ln odds of `tier` (original caps), `None` if it has no
-/// counted task.
-fn tier_worst(ctx: &Ctx, ln: &[f64], tier: usize) -> Option<f64> {
-    ObjectiveKey::from_ln_odds(ctx.inc, ln).worst_capped_ln_per_tier()[tier]
-}
-
-/// The stable re-plan from `best` (the best plan found, with key
-/// `best_key`): sequential thresholds, then the fewest moves from `ground`.
-/// Folds an exact search's effort into the re-plan's (nodes, proof, budget)
+/// Folds an exact search's effort into the rule's (nodes, proof, budget)
 /// and returns the plan it found, if any.
 fn absorb(
     out: exact::ExactOutcome,
@@ -202,110 +330,153 @@ fn absorb(
     out.best.map(|x| x.state)
 }
 
+/// Applies the rule from `best` (the best plan found, proven when
+/// `settings.exact`): thresholds entry by entry, then the least disruption
+/// from `ground` (or, from scratch, the best key) among acceptable plans.
 pub fn stable_replan(
     ctx: &Ctx,
     ground: &Placement,
     best: &State,
-    best_key: &ObjectiveKey,
     settings: &StableSettings,
     budget: &Budget,
 ) -> StableOutcome {
     let inc = ctx.inc;
-    let ln_keep = (1.0 - settings.slack.clamp(0.0, 1.0)).ln();
-    let mut thr: Thresholds = [None; 3];
-    let mut caps = ctx.caps;
-    let mut leader = best.clone();
+    let slack = settings.slack.clamp(0.0, 1.0);
+    let ln_keep = (1.0 - slack).ln();
     let mut iterations = 0u64;
     let mut proven = settings.exact;
     let mut stopped_by_budget = false;
-    let mut upper_held = false;
-    let first_worst = best_key.worst_capped_ln_per_tier();
-    for tier in 0..3 {
-        let Some(mut b) = first_worst[tier] else {
-            continue;
-        };
-        // Only a tier below some held tier can gain, and only when short of
-        // its secure level.
-        if upper_held && !at_least(b, ctx.caps[tier]) && budget.exhausted() {
-            // No time to search: the best plan's own odds set the threshold.
-            proven = false;
-            stopped_by_budget = true;
-        } else if upper_held && !at_least(b, ctx.caps[tier]) {
-            let held = ctx.with_caps(caps);
-            let limits = if settings.exact {
-                SearchLimits {
-                    stale_rounds: 10,
-                    max_rounds: 30,
-                }
-            } else {
-                SearchLimits {
-                    stale_rounds: settings.stale_rounds,
-                    max_rounds: u64::MAX,
-                }
-            };
-            // Heuristic searches share what is left of the budget: each
-            // tier search up to 15 % more of it, the rest for the moves.
-            let share = budget.share(0.55 + 0.15 * tier as f64);
-            let tier_budget = if settings.exact { budget } else { &share };
-            let seed = settings.seed ^ (0x7469_6572 + tier as u64);
-            let out = local_search(
-                &held,
-                State::new(&held, &leader.placement()),
-                seed,
-                &limits,
-                tier_budget,
-                &mut |_, _, _| {},
-            );
-            iterations += out.iterations;
-            stopped_by_budget |= out.stopped_by_budget;
-            leader = out.best;
-            if settings.exact && proven && !budget.exhausted() {
-                let key = leader.key(&held);
-                let out = exact::branch_and_bound(
-                    &held,
-                    Goal::Key,
-                    Some(Incumbent {
-                        state: leader.clone(),
-                        key,
-                        moves: 0,
-                    }),
-                    budget,
-                    settings.node_limit,
-                    &mut |_, _| {},
-                );
-                if let Some(x) = absorb(out, &mut iterations, &mut proven, &mut stopped_by_budget) {
-                    leader = x;
-                }
-            } else {
+    let best = State::new(ctx, &best.placement());
+    let mut leader = best.clone();
+    // Plans found on the way: the heuristic thresholds are read from them.
+    let mut found = vec![best.clone()];
+    let tiers = ObjectiveKey::from_ln_odds(inc, &best.ln).entry_tiers();
+    let n = tiers.len();
+    let mut thr: Thresholds = Vec::with_capacity(n);
+    let mut relaxed = false;
+    for e in 0..n {
+        let cap = ctx.caps[tiers[e].index()];
+        let v = ObjectiveKey::from_ln_odds(inc, &leader.ln).capped()[e];
+        // Only a relaxed threshold before e can let entry e rise, and not
+        // above its secure level. The heuristic path searches once per
+        // tier (at its first entry) and reads the other entries from the
+        // plans found.
+        let first_of_tier = e == 0 || tiers[e] != tiers[e - 1];
+        let exact_now = settings.exact && proven;
+        if relaxed && !reaches(v, cap) && (exact_now || first_of_tier) {
+            if budget.exhausted() {
                 proven = false;
+                stopped_by_budget = true;
+            } else {
+                let held = ctx.with_focus(&thr);
+                if settings.exact && proven {
+                    let key = leader.key(&held);
+                    let out = exact::branch_and_bound(
+                        &held,
+                        Goal::Key,
+                        &thr,
+                        Some(Incumbent {
+                            state: leader.clone(),
+                            key,
+                            cost: Disruption::default(),
+                        }),
+                        budget,
+                        settings.node_limit,
+                        &mut |_, _| {},
+                    );
+                    if let Some(x) =
+                        absorb(out, &mut iterations, &mut proven, &mut stopped_by_budget)
+                    {
+                        leader = x;
+                    }
+                } else {
+                    proven = false;
+                    // Tiers above held at their highest thresholds.
+                    let held = ctx.with_caps(top_caps(ctx, &tiers, &thr));
+                    let limits = SearchLimits {
+                        stale_rounds: settings.stale_rounds.min(3),
+                        max_rounds: 8,
+                    };
+                    // Each entry's search may run to a further share of the
+                    // budget; the rest is for the disruption step.
+                    let share = budget.share(0.55 + 0.15 * tiers[e].index() as f64);
+                    let seed = settings.seed ^ (0x656e_7472_7900 + e as u64);
+                    let out = local_search(
+                        &held,
+                        State::new(&held, &leader.placement()),
+                        seed,
+                        &limits,
+                        &share,
+                        &mut |_, _, _| {},
+                    );
+                    iterations += out.iterations;
+                    stopped_by_budget |= out.stopped_by_budget;
+                    leader = out.best;
+                }
+                leader = State::new(ctx, &leader.placement());
+                found.push(leader.clone());
             }
-            // Fresh sums: the threshold is read from them.
-            leader = State::new(ctx, &leader.placement());
-            b = tier_worst(ctx, &leader.ln, tier).unwrap_or(b);
         }
-        let t = b + ln_keep;
-        thr[tier] = Some(t);
-        caps[tier] = caps[tier].min(t);
-        upper_held = true;
+        let keys: Vec<ObjectiveKey> = found
+            .iter()
+            .map(|s| ObjectiveKey::from_ln_odds(inc, &s.ln))
+            .collect();
+        // best_e over the plans found that meet the thresholds so far (the
+        // leader, which does, when the search was exact).
+        let b = keys
+            .iter()
+            .filter(|k| k.meets(&thr))
+            .map(|k| k.capped()[e])
+            .fold(f64::NEG_INFINITY, f64::max);
+        let t = lowered(b, ln_keep);
+        relaxed |= t < b;
+        thr.push(t);
+        // The next search starts from the best plan meeting every threshold.
+        if !meets(ctx, &leader, &thr)
+            && let Some(s) = found
+                .iter()
+                .filter(|s| meets(ctx, s, &thr))
+                .max_by(|a, b| a.key(ctx).compare(&b.key(ctx)))
+        {
+            leader = s.clone();
+        }
     }
 
-    let mut chosen = stable_plan(ctx, ground, &leader, &thr, budget);
-    // Recompute from scratch: the result is scored with fresh sums.
+    let g: Vec<Option<TaskIdx>> = (0..inc.units.len()).map(|u| ground.get(u)).collect();
+    // From scratch, a proven best key that is acceptable is the answer.
+    let best_ok = settings.from_scratch && proven && meets(ctx, &best, &thr);
+    let mut chosen = if best_ok {
+        best.clone()
+    } else if settings.from_scratch {
+        found
+            .iter()
+            .filter(|s| meets(ctx, s, &thr))
+            .max_by(|a, b| a.key(ctx).compare(&b.key(ctx)))
+            .cloned()
+            .unwrap_or_else(|| leader.clone())
+    } else {
+        stable_plan(ctx, ground, &leader, &thr, budget)
+    };
+    // Scored with fresh sums.
     chosen = State::new(ctx, &chosen.placement());
-    if settings.exact && proven && !budget.exhausted() {
-        let g: Vec<Option<TaskIdx>> = (0..inc.units.len()).map(|u| ground.get(u)).collect();
-        let moves = moves_between(ground, &chosen.placement()).len();
+    if best_ok {
+        // Nothing to search: no plan has a better key.
+    } else if settings.exact && proven && !budget.exhausted() {
         let key = chosen.key(ctx);
+        let (goal, c) = if settings.from_scratch {
+            (Goal::Key, Disruption::default())
+        } else {
+            let c = cost(ctx, &chosen, &g);
+            (Goal::LeastDisruption { ground: g }, c)
+        };
         let out = exact::branch_and_bound(
             ctx,
-            Goal::FewestMoves {
-                ground: g,
-                thresholds: thr,
-            },
+            goal,
+            &thr,
             Some(Incumbent {
                 state: chosen.clone(),
                 key,
-                moves,
+                cost: c,
             }),
             budget,
             settings.node_limit,
@@ -323,5 +494,105 @@ pub fn stable_replan(
         iterations,
         stopped_by_budget,
         thresholds: thr,
+    }
+}
+
+/// How a plan compares with the recommendation, entry by entry over the
+/// capped key within the slack: the first entry where one is lower than
+/// the other by more than the slack decides.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Verdict {
+    /// Lower than the recommendation beyond the slack at this entry.
+    Worse { entry: usize },
+    /// No entry differs by more than the slack.
+    WithinSlack,
+    /// Higher than the recommendation beyond the slack at this entry (it
+    /// then misses a threshold or disturbs more, or the search was not
+    /// exhaustive).
+    Better { entry: usize },
+}
+
+impl Verdict {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Verdict::Worse { .. } => "worse",
+            Verdict::WithinSlack => "within slack",
+            Verdict::Better { .. } => "better",
+        }
+    }
+}
+
+/// `other` against `recommended` (see [`Verdict`]).
+pub fn verdict(recommended: &ObjectiveKey, other: &ObjectiveKey, slack: f64) -> Verdict {
+    let ln_keep = (1.0 - slack.clamp(0.0, 1.0)).ln();
+    for (e, (r, o)) in recommended.capped().iter().zip(other.capped()).enumerate() {
+        if !reaches(*o, lowered(*r, ln_keep)) {
+            return Verdict::Worse { entry: e };
+        }
+        if !reaches(*r, lowered(*o, ln_keep)) {
+            return Verdict::Better { entry: e };
+        }
+    }
+    Verdict::WithinSlack
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::parse_incident_str;
+
+    fn incident() -> Incident {
+        parse_incident_str(
+            r#"
+incident: { name: Invented verdict check }
+traits: [ { id: water } ]
+unit_types: [ { id: e, traits: { water: { mean: 1, sd: 1 } } } ]
+units: [ { id: E1, type: e } ]
+tasks:
+  - { id: L1, tier: life, needs: { water: 1 } }
+  - { id: L2, tier: life, needs: { water: 1 } }
+  - { id: S1, tier: stabilization, needs: { water: 1 } }
+"#,
+            "v.yaml",
+        )
+        .expect("valid")
+    }
+
+    fn key(inc: &Incident, p: [f64; 3]) -> ObjectiveKey {
+        ObjectiveKey::from_ln_odds(inc, &p.map(f64::ln))
+    }
+
+    #[test]
+    fn verdict_reads_entries_within_the_slack() {
+        let inc = incident();
+        let rec = key(&inc, [0.80, 0.90, 0.50]);
+        // 0.5 % lower on the second life entry: within slack.
+        let near = key(&inc, [0.80, 0.8955, 0.50]);
+        assert_eq!(verdict(&rec, &near, 0.01), Verdict::WithinSlack);
+        // 2 % lower on it: worse at entry 1, whatever the tier below does.
+        let worse = key(&inc, [0.80, 0.88, 0.99]);
+        assert_eq!(verdict(&rec, &worse, 0.01), Verdict::Worse { entry: 1 });
+        // Higher by more than the slack at the stabilization entry: better.
+        let better = key(&inc, [0.80, 0.90, 0.60]);
+        assert_eq!(verdict(&rec, &better, 0.01), Verdict::Better { entry: 2 });
+        // Slack 0: any difference beyond the tolerance decides.
+        assert_eq!(verdict(&rec, &near, 0.0), Verdict::Worse { entry: 1 });
+    }
+
+    #[test]
+    fn thresholds_over_plans_follow_the_definition() {
+        let inc = incident();
+        // A: best worst life; B: 0.5 % lower there but far better second
+        // entry; C: fails B's second-entry threshold.
+        let a = key(&inc, [0.80, 0.81, 0.10]);
+        let b = key(&inc, [0.796, 0.95, 0.20]);
+        let c = key(&inc, [0.80, 0.85, 0.90]);
+        let thr = thresholds_over(&[a.clone(), b.clone(), c.clone()], 0.01);
+        let close = |x: f64, y: f64| (x - y).abs() < 1e-12;
+        assert!(close(thr[0], 0.80f64.ln() + 0.99f64.ln()));
+        assert!(close(thr[1], 0.95f64.ln() + 0.99f64.ln()));
+        // Only B meets both life thresholds: its stabilization sets the last.
+        assert!(close(thr[2], 0.20f64.ln() + 0.99f64.ln()));
+        assert!(b.meets(&thr) && !a.meets(&thr) && !c.meets(&thr));
     }
 }
