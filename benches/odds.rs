@@ -6,6 +6,8 @@
 //! * `odds_whole`: what `oddsboard odds` does after reading the file: parse
 //!   and validate the YAML, evaluate every task, build the JSON view and the
 //!   text table.
+//! * `joint_all_600x40x5` / `joint_by_tier_600x40x5`: joint odds of all
+//!   open tasks (and of each tier) for the placement on the ground.
 //! * `tally/1m_add_remove_evaluate`: one million incremental tally updates,
 //!   each followed by reading that task's ln odds: 500 000 moves, each a
 //!   unit removed from its task (then that task read) and added to another
@@ -49,6 +51,31 @@ fn benches(c: &mut Criterion) {
     let inc = parse_incident_str(&yaml, "bench.yaml").expect("valid");
     c.bench_function("evaluate_600x40x5", |b| {
         b.iter(|| black_box(oddsboard::odds::evaluate(&inc, black_box(&inc.placement))))
+    });
+
+    // Joint odds of all open tasks and of each tier (what `odds` shows).
+    let all: Vec<usize> = (0..inc.tasks.len())
+        .filter(|&t| inc.tasks[t].is_open())
+        .collect();
+    let opts = oddsboard::odds::joint::JointOptions::default();
+    c.bench_function("joint_all_600x40x5", |b| {
+        b.iter(|| {
+            black_box(oddsboard::odds::joint::joint_odds(
+                &inc,
+                black_box(&inc.placement),
+                &all,
+                opts,
+            ))
+        })
+    });
+    c.bench_function("joint_by_tier_600x40x5", |b| {
+        b.iter(|| {
+            black_box(oddsboard::odds::joint::joint_by_tier(
+                &inc,
+                black_box(&inc.placement),
+                opts,
+            ))
+        })
     });
 
     // Moves chosen up front so the loop times only the tallies.

@@ -8,6 +8,9 @@ use super::CliResult;
 use super::input::load_state;
 use super::render::{Columns, footer, format_odds, regime_words, tier_title, wrap};
 use crate::model::{Incident, Placement, Tier};
+use crate::odds::joint::{
+    JointByTier, JointDetailView, JointOddsView, JointOptions, joint_by_tier,
+};
 use crate::odds::view::{SAFETY_CAUTION, TaskView, placement_view, task_views, worst_by_tier};
 use crate::solver::{
     Move, ObjectiveKey, SolveOptions, SolveReport, baselines, moves_between, solve,
@@ -70,8 +73,8 @@ struct CompareRow {
     /// Worst odds per tier with open tasks (tier → odds).
     worst_by_tier: BTreeMap<&'static str, f64>,
     min_odds: f64,
-    /// Odds that every open task succeeds (product; the traits and tasks
-    /// taken as independent).
+    /// Joint odds that every open task succeeds (shared correlated types
+    /// included; not the product of the task odds).
     all_tasks_odds: f64,
     regimes: RegimeCounts,
     moves: usize,
@@ -90,6 +93,9 @@ struct PlanJson<'a> {
     tasks_before: Vec<TaskView>,
     min_odds: f64,
     min_odds_before: f64,
+    joint_odds: JointOddsView,
+    joint_odds_before: JointOddsView,
+    joint_detail: Vec<JointDetailView>,
     proven_optimal: bool,
     upper_bound: Option<f64>,
     solve_ms: f64,
@@ -161,15 +167,13 @@ fn compare_row(
         .into_iter()
         .map(|w| (w.tier, w.odds))
         .collect();
-    let ln_all: f64 = tasks
-        .iter()
-        .map(|t| t.ln_odds.unwrap_or(f64::NEG_INFINITY))
-        .sum();
     CompareRow {
         name: name.to_string(),
         worst_by_tier: worst,
         min_odds: min_odds(&tasks),
-        all_tasks_odds: ln_all.exp(),
+        all_tasks_odds: joint_by_tier(incident, placement, JointOptions::default())
+            .all
+            .odds(),
         regimes: RegimeCounts {
             hedge: tasks.iter().filter(|t| t.regime == Some("hedge")).count(),
             gamble: tasks.iter().filter(|t| t.regime == Some("gamble")).count(),
@@ -217,6 +221,28 @@ fn compare_rows(incident: &Incident, args: &Args, report: &SolveReport) -> Vec<C
         0.0,
     ));
     rows
+}
+
+/// Joint odds per tier and of all open tasks, before → after.
+fn joint_before_after(before: &JointByTier, after: &JointByTier) -> String {
+    let (b, a) = (before.details(), after.details());
+    if a.iter().all(|d| d.tasks == 0) {
+        return String::new();
+    }
+    let mut out = String::from("Joint odds before → after (every task of the set at once):\n");
+    let mut cols = Columns::new(&["", "", "", ""], &[false, true, false, true]);
+    for (b, a) in b.iter().zip(&a) {
+        cols.push(vec![
+            super::odds::joint_set_words(a.set).to_string(),
+            super::odds::format_joint(b),
+            "→".into(),
+            super::odds::format_joint(a),
+        ]);
+    }
+    let table = cols.render(2);
+    out.extend(table.lines().skip(1).map(|l| format!("{}\n", l.trim_end())));
+    out.push('\n');
+    out
 }
 
 /// Notes that depend on the plan (SPEC §8), beside the ones about the tasks.
@@ -279,6 +305,8 @@ pub fn run(args: Args) -> CliResult {
         .compare
         .then(|| compare_rows(&incident, &args, &report));
     let notes = plan_notes(&incident, &report, &after);
+    let joint_before = joint_by_tier(&incident, &incident.placement, JointOptions::default());
+    let joint_after = joint_by_tier(&incident, &report.placement, JointOptions::default());
     let solve_ms = report.elapsed.as_secs_f64() * 1e3;
 
     if args.json {
@@ -288,6 +316,9 @@ pub fn run(args: Args) -> CliResult {
             moves: move_views(&incident, &report.moves),
             min_odds: min_odds(&after),
             min_odds_before: min_odds(&before),
+            joint_odds: joint_after.view(),
+            joint_odds_before: joint_before.view(),
+            joint_detail: joint_after.details(),
             tasks: after,
             tasks_before: before,
             proven_optimal: report.proven_optimal,
@@ -387,6 +418,7 @@ pub fn run(args: Args) -> CliResult {
         worst_cell(&before),
         worst_cell(&after)
     ));
+    out.push_str(&joint_before_after(&joint_before, &joint_after));
 
     if let Some(rows) = &compare {
         out.push_str("Compared (every plan scored by the same odds model):\n");

@@ -39,6 +39,7 @@ use super::trait_ln_odds;
 use crate::model::{Incident, Need, Placement, TaskIdx, Tier};
 use rand::rngs::StdRng;
 use rand::{RngExt, SeedableRng};
+use serde::Serialize;
 
 /// How a joint figure was computed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
@@ -145,6 +146,78 @@ pub fn joint_by_tier(
         })
         .collect();
     JointByTier { all, tiers }
+}
+
+/// `"joint_odds"` of `odds --json` and `plan --json`: the joint odds of all
+/// open tasks and of each tier that has open tasks (others left out).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct JointOddsView {
+    pub all: f64,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub life: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub stabilization: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub property: Option<f64>,
+}
+
+/// How one joint figure was reached, for `"joint_detail"`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct JointDetailView {
+    /// `all` or the tier's name.
+    pub set: &'static str,
+    pub odds: f64,
+    /// `null` when the joint odds are exactly 0.
+    pub ln_odds: Option<f64>,
+    /// Estimated absolute error of `odds`.
+    pub error: f64,
+    /// `product`, `quadrature` or `quasi_monte_carlo`.
+    pub method: &'static str,
+    pub tasks: usize,
+    /// (type, trait) factors shared by two or more tasks of the set.
+    pub shared_factors: usize,
+    /// Product of the task odds (right only for independent tasks).
+    pub product: f64,
+}
+
+fn detail(set: &'static str, j: &JointOdds) -> JointDetailView {
+    JointDetailView {
+        set,
+        odds: j.odds(),
+        ln_odds: j.ln_odds.is_finite().then_some(j.ln_odds),
+        error: j.error,
+        method: j.method.as_str(),
+        tasks: j.tasks,
+        shared_factors: j.shared_factors,
+        product: j.product(),
+    }
+}
+
+impl JointByTier {
+    /// The joint odds of one tier, if it has open tasks.
+    pub fn tier(&self, tier: Tier) -> Option<&JointOdds> {
+        self.tiers.iter().find(|(t, _)| *t == tier).map(|(_, j)| j)
+    }
+    /// The `joint_odds` JSON member.
+    pub fn view(&self) -> JointOddsView {
+        let get = |t| self.tier(t).map(JointOdds::odds);
+        JointOddsView {
+            all: self.all.odds(),
+            life: get(Tier::Life),
+            stabilization: get(Tier::Stabilization),
+            property: get(Tier::Property),
+        }
+    }
+    /// Per set (tiers first, then all): value, method, error, product.
+    pub fn details(&self) -> Vec<JointDetailView> {
+        let mut out: Vec<JointDetailView> = self
+            .tiers
+            .iter()
+            .map(|(t, j)| detail(t.as_str(), j))
+            .collect();
+        out.push(detail("all", &self.all));
+        out
+    }
 }
 
 /// One (task, trait) of a group: succeeds when `m + Σ a·Z > s·ε`.
