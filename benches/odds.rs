@@ -68,6 +68,44 @@ fn benches(c: &mut Criterion) {
             ))
         })
     });
+    // The ground of this incident leaves many tasks hopeless; the
+    // expected-value baseline's placement is a workable board, with more
+    // shared factors per trait.
+    let ev = oddsboard::solver::baselines::expected_value(&inc);
+    c.bench_function("joint_all_600x40x5_ev_plan", |b| {
+        b.iter(|| {
+            black_box(oddsboard::odds::joint::joint_odds(
+                &inc,
+                black_box(&ev),
+                &all,
+                opts,
+            ))
+        })
+    });
+    // 15 types over 5 traits: three or more shared factors per trait, the
+    // quasi-Monte Carlo path.
+    let many = parse_incident_str(
+        &generate_yaml(&GenerateSpec::new(600, 40, 5).types(15).seed(2026)),
+        "bench15.yaml",
+    )
+    .expect("valid");
+    let many_ev = oddsboard::solver::baselines::expected_value(&many);
+    let many_all: Vec<usize> = (0..many.tasks.len()).collect();
+    let j = oddsboard::odds::joint::joint_odds(&many, &many_ev, &many_all, opts);
+    eprintln!(
+        "joint_qmc: method {:?}, shared {}, ln {:.3}, error {:.2e}",
+        j.method, j.shared_factors, j.ln_odds, j.error
+    );
+    c.bench_function("joint_all_600x40x5_15types_ev_plan", |b| {
+        b.iter(|| {
+            black_box(oddsboard::odds::joint::joint_odds(
+                &many,
+                black_box(&many_ev),
+                &many_all,
+                opts,
+            ))
+        })
+    });
     c.bench_function("joint_by_tier_600x40x5", |b| {
         b.iter(|| {
             black_box(oddsboard::odds::joint::joint_by_tier(

@@ -182,6 +182,8 @@ fn matches_scipy_multivariate_normal_cdf() {
 /// A random invented incident as YAML: 1–3 traits, 1–4 types (some
 /// correlated), 3–16 units, 1–6 tasks in mixed tiers, needs near what is
 /// placed, some uncertain.
+// k indexes the traits of several types' rows at once.
+#[allow(clippy::needless_range_loop)]
 fn random_yaml(seed: u64, correlated: bool) -> String {
     let mut rng = StdRng::seed_from_u64(seed);
     let n_traits = rng.random_range(1..4usize);

@@ -300,9 +300,9 @@ pub fn joint_odds(
             let need = incident.tasks[set[i]].needs[k];
             let m = mean[i * n_traits + k];
             let mut var = 0.0;
-            for ty in 0..n_types {
+            for (ty, &r) in rho.iter().enumerate() {
                 let j = at(i, ty, k);
-                var += (1.0 - rho[ty]) * s2[j] + rho[ty] * s1[j] * s1[j];
+                var += (1.0 - r) * s2[j] + r * s1[j] * s1[j];
             }
             let ln_p = trait_ln_odds(m, var, need);
             out.ln_product += ln_p;
@@ -318,11 +318,11 @@ pub fn joint_odds(
             }
             // Conditional variance, summed directly (no cancellation).
             let mut cvar = need.sd * need.sd;
-            for ty in 0..n_types {
+            for (ty, &r) in rho.iter().enumerate() {
                 let j = at(i, ty, k);
-                cvar += (1.0 - rho[ty]) * s2[j];
+                cvar += (1.0 - r) * s2[j];
                 if !shared.contains(&ty) {
-                    cvar += rho[ty] * s1[j] * s1[j];
+                    cvar += r * s1[j] * s1[j];
                 }
             }
             rows.push(Row {
@@ -485,7 +485,7 @@ impl Line {
                 hi = z;
             }
             let mut next = z - d1 / d2;
-            if !(next > lo && next < hi) || !next.is_finite() {
+            if !(next > lo && next < hi && next.is_finite()) {
                 next = 0.5 * (lo + hi);
             }
             if (next - z).abs() < 1e-10 * (1.0 + z.abs()) || hi - lo < 1e-12 {
@@ -807,7 +807,7 @@ fn cholesky_solve(a: &mut [f64], b: &[f64], d: usize) -> Option<Vec<f64>> {
         for k in 0..j {
             s -= a[j * d + k] * a[j * d + k];
         }
-        if !(s > 0.0) || !s.is_finite() {
+        if s.is_nan() || s <= 0.0 || !s.is_finite() {
             return None;
         }
         let l = s.sqrt();
