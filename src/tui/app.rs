@@ -250,7 +250,7 @@ const RECENT_KEPT: usize = 500;
 impl AppState {
     pub fn new(mode: Mode, incident: Incident, theme: Theme) -> Self {
         let ground = evaluate(&incident, &incident.placement);
-        let ground_joint = joint_by_tier(&incident, &incident.placement, JointOptions::default());
+        let ground_joint = joint_by_tier(&incident, &incident.placement, JointOptions::quick());
         let mut state = AppState {
             mode,
             incident,
@@ -327,7 +327,7 @@ impl AppState {
         self.ground_joint = joint_by_tier(
             &self.incident,
             &self.incident.placement,
-            JointOptions::default(),
+            JointOptions::quick(),
         );
         self.proposal = None;
         self.generation += 1;

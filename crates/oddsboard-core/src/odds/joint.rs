@@ -68,12 +68,29 @@ pub struct JointOptions {
     /// Seed of the lattice's random shifts (used only for 3 or more shared
     /// factors in one group). Default 0.
     pub seed: u64,
+    /// Most lattice points per shift (the quasi-Monte Carlo path doubles
+    /// from 256 until its standard error is small enough or this is
+    /// reached). Default 32 768; the dashboard uses fewer to stay quick.
+    pub max_points: usize,
 }
 
-#[allow(clippy::derivable_impls)]
 impl Default for JointOptions {
     fn default() -> Self {
-        JointOptions { seed: 0 }
+        JointOptions {
+            seed: 0,
+            max_points: 1 << 15,
+        }
+    }
+}
+
+impl JointOptions {
+    /// Settings for a screen redrawn on every change: at most 2 048 points
+    /// per shift (the error estimate says what that costs in accuracy).
+    pub fn quick() -> Self {
+        JointOptions {
+            max_points: 1 << 11,
+            ..JointOptions::default()
+        }
     }
 }
 
@@ -342,7 +359,8 @@ pub fn joint_odds(
                     (l, e, JointMethod::Quadrature)
                 }
                 _ => {
-                    let (l, e) = rqmc(&group, dims, options.seed ^ ((k as u64) << 32));
+                    let seed = options.seed ^ ((k as u64) << 32);
+                    let (l, e) = rqmc(&group, dims, seed, options.max_points);
                     (l, e, JointMethod::QuasiMonteCarlo)
                 }
             };
@@ -843,7 +861,7 @@ const SHIFTS: usize = 8;
 /// random shifts, Box–Muller to normals), importance-shifted to the mode.
 /// Returns ln of the estimate and its relative error (three standard
 /// errors across the shifts).
-fn rqmc(rows: &[Row], d: usize, seed: u64) -> (f64, f64) {
+fn rqmc(rows: &[Row], d: usize, seed: u64, max_points: usize) -> (f64, f64) {
     let mu = mode_nd(rows, d);
     let mu2: f64 = mu.iter().map(|v| v * v).sum();
     let pairs = d.div_ceil(2);
@@ -903,7 +921,7 @@ fn rqmc(rows: &[Row], d: usize, seed: u64) -> (f64, f64) {
         let abs_se = rel_se * ln_mean.exp();
         // 1e−5 absolute; for small odds, 1e−3 relative (ln within 0.003).
         let p = ln_mean.exp();
-        if abs_se <= 1e-5 || (p < 1e-2 && rel_se <= 1e-3) || n_points >= 1 << 15 {
+        if abs_se <= 1e-5 || (p < 1e-2 && rel_se <= 1e-3) || n_points >= max_points {
             return (ln_mean, 3.0 * rel_se);
         }
         n_points *= 2;
@@ -959,7 +977,7 @@ mod tests {
                 s: 1.0,
                 loads: vec![(0, 1.0), (1, 1.0), (2, 1.0)],
             };
-            let (ln, rel) = rqmc(&[row], 3, 1);
+            let (ln, rel) = rqmc(&[row], 3, 1, 1 << 15);
             let want = ln_phi(-m / 2.0);
             // 1e−4 absolute, and 1e−2 relative in the far tail (m = 20:
             // Φ(−10) ≈ 7.6e−24, reached through the mode shift).
