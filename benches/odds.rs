@@ -6,6 +6,8 @@
 //! * `odds_whole`: what `oddsboard odds` does after reading the file: parse
 //!   and validate the YAML, evaluate every task, build the JSON view and the
 //!   text table.
+//! * `joint_all_600x40x5` / `joint_by_tier_600x40x5`: joint odds of all
+//!   open tasks (and of each tier) for the placement on the ground.
 //! * `tally/1m_add_remove_evaluate`: one million incremental tally updates,
 //!   each followed by reading that task's ln odds: 500 000 moves, each a
 //!   unit removed from its task (then that task read) and added to another
@@ -49,6 +51,69 @@ fn benches(c: &mut Criterion) {
     let inc = parse_incident_str(&yaml, "bench.yaml").expect("valid");
     c.bench_function("evaluate_600x40x5", |b| {
         b.iter(|| black_box(oddsboard::odds::evaluate(&inc, black_box(&inc.placement))))
+    });
+
+    // Joint odds of all open tasks and of each tier (what `odds` shows).
+    let all: Vec<usize> = (0..inc.tasks.len())
+        .filter(|&t| inc.tasks[t].is_open())
+        .collect();
+    let opts = oddsboard::odds::joint::JointOptions::default();
+    c.bench_function("joint_all_600x40x5", |b| {
+        b.iter(|| {
+            black_box(oddsboard::odds::joint::joint_odds(
+                &inc,
+                black_box(&inc.placement),
+                &all,
+                opts,
+            ))
+        })
+    });
+    // The ground of this incident leaves many tasks hopeless; the
+    // expected-value baseline's placement is a workable board, with more
+    // shared factors per trait.
+    let ev = oddsboard::solver::baselines::expected_value(&inc);
+    c.bench_function("joint_all_600x40x5_ev_plan", |b| {
+        b.iter(|| {
+            black_box(oddsboard::odds::joint::joint_odds(
+                &inc,
+                black_box(&ev),
+                &all,
+                opts,
+            ))
+        })
+    });
+    // 15 types over 5 traits: three or more shared factors per trait, the
+    // quasi-Monte Carlo path.
+    let many = parse_incident_str(
+        &generate_yaml(&GenerateSpec::new(600, 40, 5).types(15).seed(2026)),
+        "bench15.yaml",
+    )
+    .expect("valid");
+    let many_ev = oddsboard::solver::baselines::expected_value(&many);
+    let many_all: Vec<usize> = (0..many.tasks.len()).collect();
+    let j = oddsboard::odds::joint::joint_odds(&many, &many_ev, &many_all, opts);
+    eprintln!(
+        "joint_qmc: method {:?}, shared {}, ln {:.3}, error {:.2e}",
+        j.method, j.shared_factors, j.ln_odds, j.error
+    );
+    c.bench_function("joint_all_600x40x5_15types_ev_plan", |b| {
+        b.iter(|| {
+            black_box(oddsboard::odds::joint::joint_odds(
+                &many,
+                black_box(&many_ev),
+                &many_all,
+                opts,
+            ))
+        })
+    });
+    c.bench_function("joint_by_tier_600x40x5", |b| {
+        b.iter(|| {
+            black_box(oddsboard::odds::joint::joint_by_tier(
+                &inc,
+                black_box(&inc.placement),
+                opts,
+            ))
+        })
     });
 
     // Moves chosen up front so the loop times only the tallies.

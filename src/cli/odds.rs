@@ -4,7 +4,10 @@
 
 use super::CliResult;
 use super::input::load_state;
-use super::render::{TableOptions, footer, task_table};
+use super::render::{Columns, TableOptions, footer, task_table, wrap};
+use crate::odds::joint::JointDetailView;
+use crate::odds::ln_one_minus_exp;
+use crate::odds::text::pct_detail;
 use crate::odds::view::odds_view;
 use std::path::PathBuf;
 
@@ -15,8 +18,8 @@ pub struct Args {
     /// Show one line per trait under each task.
     #[arg(long)]
     pub traits: bool,
-    /// Print one JSON document (placement, tasks, min_odds, worst_by_tier)
-    /// instead of the table.
+    /// Print one JSON document (placement, tasks, min_odds, worst_by_tier,
+    /// joint_odds) instead of the table.
     #[arg(long)]
     pub json: bool,
 }
@@ -46,7 +49,68 @@ pub fn run(args: Args) -> CliResult {
             traits: args.traits,
         },
     ));
+    out.push_str(&joint_block(&view.joint_detail));
     out.push_str(&footer(&view.tasks));
     print!("{out}");
     Ok(())
+}
+
+/// The words for a joint set: "all life-safety tasks", "all open tasks".
+pub fn joint_set_words(set: &str) -> &'static str {
+    match set {
+        "life" => "all life-safety tasks",
+        "stabilization" => "all stabilization tasks",
+        "property" => "all property tasks",
+        _ => "all open tasks",
+    }
+}
+
+/// A joint figure for people, with its error when it shows at 0.1 %.
+pub fn format_joint(d: &JointDetailView) -> String {
+    // ln(1 − p); None when certain.
+    let ln_fail = d
+        .ln_odds
+        .and_then(|l| (l < 0.0).then(|| ln_one_minus_exp(l)));
+    let mut text = pct_detail(d.ln_odds, ln_fail);
+    if d.error >= 5e-4 {
+        text.push_str(&format!(" ± {:.1} %", d.error * 100.0));
+    }
+    text
+}
+
+/// The joint odds block of `odds`: each tier, then all open tasks, with the
+/// product beside the figures it differs from.
+pub fn joint_block(details: &[JointDetailView]) -> String {
+    if details.iter().all(|d| d.tasks == 0) {
+        return String::new();
+    }
+    let mut out = String::from("Joint odds (every task of the set succeeds at once):\n");
+    let mut cols = Columns::new(&["", "", ""], &[false, true, false]);
+    let mut differs = false;
+    for d in details {
+        let note = if (d.odds - d.product).abs() >= 5e-4 {
+            differs = true;
+            format!("(product of task odds {:.1}%)", d.product * 100.0)
+        } else {
+            String::new()
+        };
+        cols.push(vec![
+            joint_set_words(d.set).to_string(),
+            format_joint(d),
+            note,
+        ]);
+    }
+    // Drop the empty header line the table helper draws.
+    let table = cols.render(2);
+    out.extend(table.lines().skip(1).map(|l| format!("{}\n", l.trim_end())));
+    if differs {
+        out.push_str(&wrap(
+            "Tasks served by one correlated unit type rise and fall together, so their \
+             joint odds are not the product of their odds.",
+            78,
+            "",
+        ));
+    }
+    out.push('\n');
+    out
 }

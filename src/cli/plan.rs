@@ -8,6 +8,9 @@ use super::CliResult;
 use super::input::load_state;
 use super::render::{Columns, footer, regime_words, tier_title, wrap};
 use crate::model::{Incident, Placement, Tier};
+use crate::odds::joint::{
+    JointByTier, JointDetailView, JointOddsView, JointOptions, joint_by_tier,
+};
 use crate::odds::text::{pct, pct_detail};
 use crate::odds::view::{TaskView, placement_view, task_views, worst_by_tier};
 use crate::safety;
@@ -75,8 +78,8 @@ struct CompareRow {
     /// Mean odds per tier with open tasks (tier → odds).
     mean_by_tier: BTreeMap<&'static str, f64>,
     min_odds: f64,
-    /// Odds that every open task succeeds (product; the traits and tasks
-    /// taken as independent).
+    /// Joint odds that every open task succeeds (shared correlated types
+    /// included; not the product of the task odds).
     all_tasks_odds: f64,
     regimes: RegimeCounts,
     moves: usize,
@@ -106,6 +109,9 @@ struct PlanJson<'a> {
     tasks_before: Vec<TaskView>,
     min_odds: f64,
     min_odds_before: f64,
+    joint_odds: JointOddsView,
+    joint_odds_before: JointOddsView,
+    joint_detail: Vec<JointDetailView>,
     proven_optimal: bool,
     upper_bound: Option<f64>,
     solve_ms: f64,
@@ -246,10 +252,6 @@ fn compare_row(
             (!v.is_empty()).then(|| (tier.as_str(), v.iter().sum::<f64>() / v.len() as f64))
         })
         .collect();
-    let ln_all: f64 = tasks
-        .iter()
-        .map(|t| t.ln_odds.unwrap_or(f64::NEG_INFINITY))
-        .sum();
     let cost = disruption(incident, &incident.placement, placement);
     let acceptable = key.meets(rec.thresholds);
     let slack_words = format!("within {} %", rec.slack * 100.0);
@@ -338,7 +340,9 @@ fn compare_row(
         worst_by_tier: worst,
         mean_by_tier: mean,
         min_odds: min_odds(&tasks),
-        all_tasks_odds: ln_all.exp(),
+        all_tasks_odds: joint_by_tier(incident, placement, JointOptions::default())
+            .all
+            .odds(),
         regimes: RegimeCounts {
             hedge: tasks.iter().filter(|t| t.regime == Some("hedge")).count(),
             gamble: tasks.iter().filter(|t| t.regime == Some("gamble")).count(),
@@ -396,6 +400,28 @@ fn compare_rows(incident: &Incident, args: &Args, report: &SolveReport) -> Vec<C
         false,
     ));
     rows
+}
+
+/// Joint odds per tier and of all open tasks, before → after.
+fn joint_before_after(before: &JointByTier, after: &JointByTier) -> String {
+    let (b, a) = (before.details(), after.details());
+    if a.iter().all(|d| d.tasks == 0) {
+        return String::new();
+    }
+    let mut out = String::from("Joint odds before → after (every task of the set at once):\n");
+    let mut cols = Columns::new(&["", "", "", ""], &[false, true, false, true]);
+    for (b, a) in b.iter().zip(&a) {
+        cols.push(vec![
+            super::odds::joint_set_words(a.set).to_string(),
+            super::odds::format_joint(b),
+            "→".into(),
+            super::odds::format_joint(a),
+        ]);
+    }
+    let table = cols.render(2);
+    out.extend(table.lines().skip(1).map(|l| format!("{}\n", l.trim_end())));
+    out.push('\n');
+    out
 }
 
 /// Notes that depend on the plan (SPEC §8), beside the ones about the tasks.
@@ -460,6 +486,8 @@ pub fn run(args: Args) -> CliResult {
         .compare
         .then(|| compare_rows(&incident, &args, &report));
     let notes = plan_notes(&incident, &report, &after);
+    let joint_before = joint_by_tier(&incident, &incident.placement, JointOptions::default());
+    let joint_after = joint_by_tier(&incident, &report.placement, JointOptions::default());
     let solve_ms = report.elapsed.as_secs_f64() * 1e3;
 
     if args.json {
@@ -471,6 +499,9 @@ pub fn run(args: Args) -> CliResult {
             dispatches: report.disruption.dispatches,
             min_odds: min_odds(&after),
             min_odds_before: min_odds(&before),
+            joint_odds: joint_after.view(),
+            joint_odds_before: joint_before.view(),
+            joint_detail: joint_after.details(),
             tasks: after,
             tasks_before: before,
             proven_optimal: report.proven_optimal,
@@ -579,6 +610,7 @@ pub fn run(args: Args) -> CliResult {
         worst_cell(&before),
         worst_cell(&after)
     ));
+    out.push_str(&joint_before_after(&joint_before, &joint_after));
 
     if let Some(rows) = &compare {
         out.push_str(&format!(

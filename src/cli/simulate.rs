@@ -81,13 +81,14 @@ pub fn run(args: Args) -> CliResult {
     cols.push(vec![
         "all tasks".to_string(),
         String::new(),
-        format!(
-            "{} if independent",
-            pct(view.all_tasks.model_if_independent)
-        ),
+        pct(view.all_tasks.model_joint),
         pct(view.all_tasks.rate),
         format!("{} – {}", pct(view.all_tasks.low), pct(view.all_tasks.high)),
-        String::new(),
+        if view.all_tasks.model_inside {
+            String::new()
+        } else {
+            "<< model outside".to_string()
+        },
     ]);
     out.push_str(&cols.render(2));
     out.push('\n');
@@ -111,9 +112,9 @@ pub fn run(args: Args) -> CliResult {
         ));
     }
     out.push_str(&wrap(
-        "The all-tasks model figure multiplies the task odds, which is right only when \
-         tasks share no correlated unit type; the simulation draws the shared factor once \
-         per type for all tasks.",
+        "The all-tasks model figure is the joint odds: tasks served by one correlated unit \
+         type rise and fall together, in the model as in the simulation, which draws the \
+         shared factor once per type for all tasks.",
         78,
         "",
     ));

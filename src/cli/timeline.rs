@@ -5,6 +5,7 @@ use super::CliResult;
 use super::input::read_log_reporting;
 use crate::log::Move;
 use crate::model::{Incident, Placement, Tier};
+use crate::odds::joint::JointOddsView;
 use crate::odds::text::pct_or_dash;
 use crate::odds::view::{TaskView, task_view};
 use crate::report::timeline::{ProposalOdds, Row, TierWorst, TimelineWalker};
@@ -222,6 +223,9 @@ struct RowJson<'a> {
     /// Worst ground odds per tier after the record.
     worst: WorstJson,
     min_odds: Option<f64>,
+    /// Joint ground odds of all open tasks and of each tier's open tasks
+    /// (as `odds --json` `joint_odds`).
+    joint_odds: JointOddsView,
     /// Open tasks on the ground after the record, as `odds --json` `tasks`.
     ground: Vec<TaskView>,
     /// The proposal in force (the last `plan_proposed` not yet accepted or
@@ -336,6 +340,12 @@ impl Mode {
                     event: &row.words,
                     worst: WorstJson::from(&row.worst),
                     min_odds: finite(row.min_odds),
+                    joint_odds: JointOddsView {
+                        all: row.joint_all.unwrap_or(1.0),
+                        life: row.joint[Tier::Life.index()],
+                        stabilization: row.joint[Tier::Stabilization.index()],
+                        property: row.joint[Tier::Property.index()],
+                    },
                     ground,
                     proposal: row.proposal.as_ref().map(proposal_json),
                 };

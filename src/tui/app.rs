@@ -15,6 +15,7 @@ use super::form::{Form, FormKind, FormOutcome};
 use super::theme::Theme;
 use crate::log::{Event, Record, apply};
 use crate::model::{Incident, Placement, TaskIdx};
+use crate::odds::joint::{JointByTier, JointOptions, joint_by_tier};
 use crate::odds::{TaskOdds, evaluate};
 
 /// Which of the three dashboards is running.
@@ -112,6 +113,9 @@ pub struct AppState {
     pub incident: Incident,
     /// Odds of the placement on the ground, by task index.
     pub ground: Vec<TaskOdds>,
+    /// Joint odds of the ground per tier and of all open tasks (for the
+    /// tier headers), computed with `ground`.
+    pub ground_joint: JointByTier,
     pub proposal: Option<Proposal>,
     pub plan_status: PlanStatus,
     /// Bumped on every change of the incident; re-plan results of an older
@@ -253,10 +257,12 @@ const RECENT_KEPT: usize = 500;
 impl AppState {
     pub fn new(mode: Mode, incident: Incident, theme: Theme) -> Self {
         let ground = evaluate(&incident, &incident.placement);
+        let ground_joint = joint_by_tier(&incident, &incident.placement, JointOptions::quick());
         let mut state = AppState {
             mode,
             incident,
             ground,
+            ground_joint,
             proposal: None,
             plan_status: if mode == Mode::Command {
                 PlanStatus::Starting
@@ -325,6 +331,11 @@ impl AppState {
     /// proposal, records the worst odds and asks for a re-plan.
     pub fn incident_changed(&mut self) -> Vec<Effect> {
         self.ground = evaluate(&self.incident, &self.incident.placement);
+        self.ground_joint = joint_by_tier(
+            &self.incident,
+            &self.incident.placement,
+            JointOptions::quick(),
+        );
         self.proposal = None;
         self.generation += 1;
         self.push_worst();

@@ -46,11 +46,25 @@ pub fn lines(state: &AppState, width: usize) -> (Vec<Line<'static>>, usize) {
         if current_group != Some(group) {
             current_group = Some(group);
             let head = match group {
-                Some(tier) => format!(
-                    "{}  · secure at {}",
-                    tier_heading(tier),
-                    pct(inc.secure.get(tier))
-                ),
+                Some(tier) => {
+                    let mut head = format!(
+                        "{}  · secure at {}",
+                        tier_heading(tier),
+                        pct(inc.secure.get(tier))
+                    );
+                    // Joint odds: every open task of the tier at once;
+                    // a shorter form where the panel is narrow.
+                    if let Some(j) = state.ground_joint.tier(tier) {
+                        let p = pct_ln(j.ln_odds);
+                        let long = format!("  · all {} tasks: {p}", tier_tasks_word(tier));
+                        if head.chars().count() + long.chars().count() <= width {
+                            head.push_str(&long);
+                        } else {
+                            head.push_str(&format!(" · all: {p}"));
+                        }
+                    }
+                    head
+                }
                 None => "CLOSED".to_string(),
             };
             out.push(Line::styled(head, th.heading()));
@@ -147,4 +161,13 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
             .scroll((scroll as u16, 0)),
         area,
     );
+}
+
+/// The tier in "all … tasks" of the header.
+fn tier_tasks_word(tier: crate::model::Tier) -> &'static str {
+    match tier {
+        crate::model::Tier::Life => "life-safety",
+        crate::model::Tier::Stabilization => "stabilization",
+        crate::model::Tier::Property => "property",
+    }
 }

@@ -11,6 +11,7 @@
 //!
 //! Invariant: pure functions of their inputs; no I/O, no clock, no randomness.
 
+pub mod joint;
 pub mod normal;
 pub mod simulate;
 pub mod text;

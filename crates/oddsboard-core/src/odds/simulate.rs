@@ -24,6 +24,7 @@
 //! the same run across oddsboard versions as long as rand's xoshiro256++ and
 //! rand_distr's normal sampler keep their documented output.
 
+use super::joint::{JointOdds, JointOptions, joint_odds};
 use super::{evaluate_task, phi};
 use crate::model::{Incident, Need, Placement, TaskIdx};
 use rand::rngs::Xoshiro256PlusPlus;
@@ -77,9 +78,9 @@ pub struct Simulation {
     pub tasks: Vec<TaskRate>,
     /// Trials in which every open task succeeded.
     pub all_successes: u64,
-    /// Product of the model's task odds: the all-tasks odds if tasks were
-    /// independent (they are not when they share a correlated unit type).
-    pub all_model_if_independent: f64,
+    /// The model's joint odds of every open task (shared correlated types
+    /// included), to compare with the all-tasks rate.
+    pub all_model: JointOdds,
 }
 
 impl Simulation {
@@ -277,12 +278,12 @@ pub fn simulate(
             model_ln_fail: r.ln_fail,
         })
         .collect();
-    let all_model_if_independent = readings.iter().map(|r| r.ln_odds).sum::<f64>().exp();
+    let all_model = joint_odds(incident, placement, &open, JointOptions::default());
     Simulation {
         options,
         tasks,
         all_successes,
-        all_model_if_independent,
+        all_model,
     }
 }
 
@@ -315,9 +316,14 @@ pub struct AllTasksView {
     pub rate: f64,
     pub low: f64,
     pub high: f64,
-    /// Product of the task odds: the model's answer only if tasks were
-    /// independent; shared correlated types make the true value differ.
-    pub model_if_independent: f64,
+    /// The model's joint odds of every open task (not the product of the
+    /// task odds: shared correlated types make tasks rise and fall together).
+    pub model_joint: f64,
+    /// Estimated absolute error of `model_joint` (numerical, not sampling).
+    pub model_joint_error: f64,
+    /// Whether the model's joint odds lie inside the interval (within their
+    /// numerical error).
+    pub model_inside: bool,
 }
 
 /// The `simulate --json` document.
@@ -379,7 +385,10 @@ pub fn simulation_view(incident: &Incident, sim: &Simulation, confidence: f64) -
             rate: sim.all_rate(),
             low,
             high,
-            model_if_independent: sim.all_model_if_independent,
+            model_joint: sim.all_model.odds(),
+            model_joint_error: sim.all_model.error,
+            model_inside: low <= sim.all_model.odds() + sim.all_model.error
+                && sim.all_model.odds() - sim.all_model.error <= high,
         },
         cautions: &crate::safety::CAUTIONS,
     }

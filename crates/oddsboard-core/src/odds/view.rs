@@ -14,6 +14,7 @@
 //! Invariant: pure; builds values from an incident and a placement, never
 //! prints.
 
+use super::joint::{JointDetailView, JointOddsView, JointOptions, joint_by_tier};
 use super::{ForcedZero, Regime, TaskOdds, TraitOdds, evaluate_task};
 use crate::model::{Incident, Placement, Tier};
 use serde::Serialize;
@@ -124,6 +125,11 @@ pub struct OddsView {
     pub worst_by_tier: Vec<TierWorst>,
     /// The standing cautions ([`crate::safety::CAUTIONS`]).
     pub cautions: &'static [&'static str],
+    /// Joint odds: every open task together, and every open task of each
+    /// tier (shared correlated types make them differ from the product).
+    pub joint_odds: JointOddsView,
+    /// How each joint figure was computed (method, error estimate, product).
+    pub joint_detail: Vec<JointDetailView>,
 }
 
 fn finite(x: f64) -> Option<f64> {
@@ -229,7 +235,10 @@ fn ln_key(t: &TaskView) -> f64 {
 pub fn odds_view(incident: &Incident, placement: &Placement) -> OddsView {
     let tasks = task_views(incident, placement);
     let min_ln = tasks.iter().map(ln_key).fold(0.0_f64, f64::min);
+    let joint = joint_by_tier(incident, placement, JointOptions::default());
     OddsView {
+        joint_odds: joint.view(),
+        joint_detail: joint.details(),
         incident: incident.name.clone(),
         placement: placement_view(incident, placement),
         worst_by_tier: worst_by_tier(incident, &tasks),

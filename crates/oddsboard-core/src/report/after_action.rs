@@ -47,6 +47,8 @@ pub struct WorstPoint {
     pub event: String,
     /// Worst ground odds per tier: life, stabilization, property.
     pub worst: TierWorst,
+    /// Joint ground odds per tier (every open task of the tier at once).
+    pub joint: TierWorst,
 }
 
 /// One record in words.
@@ -194,17 +196,18 @@ pub fn after_action(records: &[Record], source: &str) -> Result<AfterAction, Log
     actors.sort_unstable();
     actors.dedup();
     let mut worst_timeline = Vec::new();
-    let mut prev: Option<TierWorst> = None;
+    let mut prev: Option<(TierWorst, TierWorst)> = None;
     for row in &rows {
-        if prev.as_ref() == Some(&row.worst) {
+        if prev.as_ref() == Some(&(row.worst, row.joint)) {
             continue;
         }
-        prev = Some(row.worst);
+        prev = Some((row.worst, row.joint));
         worst_timeline.push(WorstPoint {
             seq: row.seq,
             at: time_of(&row.at),
             event: row.words.clone(),
             worst: row.worst,
+            joint: row.joint,
         });
     }
     let forecasts = forecasts(&closed);
@@ -324,21 +327,23 @@ pub fn render_markdown(a: &AfterAction) -> String {
     let _ = writeln!(out, "## Worst odds on the ground over time\n");
     let _ = writeln!(
         out,
-        "Worst odds of the open tasks of each tier after each record that changed them.\n"
+        "Worst odds of the open tasks of each tier after each record that changed them, \
+         and the joint odds that every open task of the tier succeeds at once (\"all\").\n"
     );
     let _ = writeln!(
         out,
-        "| seq | time (UTC) | event | life | stabilization | property |"
+        "| seq | time (UTC) | event | life | stabilization | property | all life | all stab. | all prop. |"
     );
-    let _ = writeln!(out, "|---:|---|---|---:|---:|---:|");
+    let _ = writeln!(out, "|---:|---|---|---:|---:|---:|---:|---:|---:|");
     for w in &a.worst_timeline {
         let _ = writeln!(
             out,
-            "| {} | {} | {} | {} |",
+            "| {} | {} | {} | {} | {} |",
             w.seq,
             short_time(&w.at),
             md_escape(&w.event),
-            worst_cells(&w.worst)
+            worst_cells(&w.worst),
+            worst_cells(&w.joint)
         );
     }
     let _ = writeln!(out);

@@ -9,6 +9,7 @@
 use crate::log::apply::touched_units;
 use crate::log::{Event, LogError, Move, Record, Replay};
 use crate::model::{Incident, TaskIdx, Tier};
+use crate::odds::joint::{JointOptions, joint_by_tier};
 use crate::odds::{TaskOdds, TaskTally, tallies};
 use chrono::{DateTime, Utc};
 
@@ -52,6 +53,10 @@ pub struct Row {
     pub worst: TierWorst,
     /// Worst ground odds of all open tasks after the record.
     pub min_odds: Option<f64>,
+    /// Joint ground odds per tier (every open task of the tier at once).
+    pub joint: TierWorst,
+    /// Joint ground odds of every open task (`None` when none is open).
+    pub joint_all: Option<f64>,
     /// The proposal in force after the record (the last `plan_proposed` not
     /// yet accepted or rejected).
     pub proposal: Option<ProposalOdds>,
@@ -68,6 +73,20 @@ pub struct TimelineWalker {
     /// Ground odds per task (closed tasks included; they are skipped).
     odds: Vec<TaskOdds>,
     proposal: Option<ProposalOdds>,
+    /// Joint ground odds per tier and of all open tasks, recomputed only
+    /// after records that change some task's odds.
+    joint: (TierWorst, Option<f64>),
+}
+
+/// Joint odds of the ground per tier and of all open tasks.
+fn joint_of(state: &Incident) -> (TierWorst, Option<f64>) {
+    let j = joint_by_tier(state, &state.placement, JointOptions::default());
+    let mut tiers: TierWorst = [None; 3];
+    for (tier, o) in &j.tiers {
+        tiers[tier.index()] = Some(o.odds());
+    }
+    let any_open = state.tasks.iter().any(|t| t.is_open());
+    (tiers, any_open.then(|| j.all.odds()))
 }
 
 fn task_odds(state: &Incident, tally: &TaskTally, t: TaskIdx) -> TaskOdds {
@@ -102,11 +121,13 @@ impl TimelineWalker {
         let odds = (0..state.tasks.len())
             .map(|t| task_odds(state, &tallies[t], t))
             .collect();
+        let joint = joint_of(state);
         let walker = TimelineWalker {
             replay,
             tallies,
             odds,
             proposal: None,
+            joint,
         };
         let row = walker.row(first, None);
         Ok((walker, row))
@@ -141,6 +162,8 @@ impl TimelineWalker {
             words: r.event.describe(),
             worst,
             min_odds,
+            joint: self.joint.0,
+            joint_all: self.joint.1,
             proposal: self.proposal.clone(),
             closed,
         }
@@ -190,6 +213,7 @@ impl TimelineWalker {
                 let t = state.tasks.len() - 1;
                 self.tallies.push(TaskTally::for_incident(state));
                 self.odds.push(task_odds(state, &self.tallies[t], t));
+                dirty.push(t);
             }
             Event::NeedChanged { task, .. } | Event::TaskClosed { task, .. } => {
                 if let Some(t) = state.task_idx(task) {
@@ -200,6 +224,9 @@ impl TimelineWalker {
         }
         dirty.sort_unstable();
         dirty.dedup();
+        if !dirty.is_empty() {
+            self.joint = joint_of(state);
+        }
         for t in dirty {
             self.odds[t] = task_odds(state, &self.tallies[t], t);
         }
