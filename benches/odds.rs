@@ -54,7 +54,7 @@ fn benches(c: &mut Criterion) {
     });
 
     // Joint odds of all open tasks and of each tier (what `odds` shows).
-    let all: Vec<usize> = (0..inc.tasks.len())
+    let all: Vec<oddsboard::model::TaskIdx> = oddsboard::model::TaskIdx::range(inc.tasks.len())
         .filter(|&t| inc.tasks[t].is_open())
         .collect();
     let opts = oddsboard::odds::joint::JointOptions::default();
@@ -90,7 +90,8 @@ fn benches(c: &mut Criterion) {
     )
     .expect("valid");
     let many_ev = oddsboard::solver::baselines::expected_value(&many);
-    let many_all: Vec<usize> = (0..many.tasks.len()).collect();
+    let many_all: Vec<oddsboard::model::TaskIdx> =
+        oddsboard::model::TaskIdx::range(many.tasks.len()).collect();
     let j = oddsboard::odds::joint::joint_odds(&many, &many_ev, &many_all, opts);
     eprintln!(
         "joint_qmc: method {:?}, shared {}, ln {:.3}, error {:.2e}",
@@ -119,11 +120,11 @@ fn benches(c: &mut Criterion) {
     // Moves chosen up front so the loop times only the tallies.
     let mut rng = StdRng::seed_from_u64(7);
     let n_tasks = inc.tasks.len();
-    let moves: Vec<(usize, usize)> = (0..500_000)
+    let moves: Vec<(oddsboard::model::UnitIdx, oddsboard::model::TaskIdx)> = (0..500_000)
         .map(|_| {
             (
-                rng.random_range(0..inc.units.len()),
-                rng.random_range(0..n_tasks),
+                oddsboard::model::UnitIdx::new(rng.random_range(0..inc.units.len())),
+                oddsboard::model::TaskIdx::new(rng.random_range(0..n_tasks)),
             )
         })
         .collect();

@@ -67,13 +67,15 @@ fn loss_pair(seed: u64) -> (Incident, Incident) {
     let mut inc = incident(100, 15, 4, seed);
     let r = run(&inc, &scratch(Duration::from_millis(500)));
     inc.placement = r.placement;
-    let lost = (0..inc.units.len())
+    let lost = oddsboard::model::UnitIdx::range(inc.units.len())
         .filter(|&u| inc.placement.get(u).is_some() && !inc.pins.contains_key(&u))
         .max_by(|&a, &b| {
-            let s = |u: usize| inc.units[u].ratings.iter().map(|r| r.mean).sum::<f64>();
+            let s = |u: oddsboard::model::UnitIdx| {
+                inc.units[u].ratings.iter().map(|r| r.mean).sum::<f64>()
+            };
             s(a).total_cmp(&s(b))
         })
-        .unwrap_or(0);
+        .unwrap_or(oddsboard::model::UnitIdx::new(0));
     let mut after = inc.clone();
     after.remove_unit(lost);
     (inc, after)

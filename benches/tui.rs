@@ -97,7 +97,7 @@ fn bench_first_replan_after_loss(c: &mut Criterion) {
     let planner = SolverPlanner::with_budget(Duration::from_secs(2));
     let mut terminal = Terminal::new(TestBackend::new(140, 45)).unwrap();
     // The unit lost is the first one on a task.
-    let lost = (0..base.incident.units.len())
+    let lost = oddsboard::model::UnitIdx::range(base.incident.units.len())
         .find(|&u| base.incident.placement.get(u).is_some())
         .expect("a placed unit");
     let lost_id = base.incident.units[lost].id.clone();

@@ -22,7 +22,13 @@ fn all_placements(inc: &Incident) -> Vec<Placement> {
         let p = Placement(
             choice
                 .iter()
-                .map(|&c| if c == 0 { None } else { Some(c - 1) })
+                .map(|&c| {
+                    if c == 0 {
+                        None
+                    } else {
+                        Some(oddsboard::model::TaskIdx::new(c - 1))
+                    }
+                })
                 .collect(),
         );
         if feasible(inc, &p) {
@@ -45,6 +51,7 @@ fn all_placements(inc: &Incident) -> Vec<Placement> {
 
 fn feasible(inc: &Incident, p: &Placement) -> bool {
     for (u, unit) in inc.units.iter().enumerate() {
+        let u = oddsboard::model::UnitIdx::new(u);
         if let Some(t) = p.get(u)
             && !inc.may_place(u, t)
         {
@@ -58,13 +65,14 @@ fn feasible(inc: &Incident, p: &Placement) -> bool {
         let _ = unit;
     }
     for (t, task) in inc.tasks.iter().enumerate() {
+        let t = oddsboard::model::TaskIdx::new(t);
         if let Some(m) = task.max_units
             && p.units_on(t).count() as u32 > m
         {
             return false;
         }
     }
-    let reserve = (0..inc.units.len())
+    let reserve = oddsboard::model::UnitIdx::range(inc.units.len())
         .filter(|&u| inc.units[u].status == UnitStatus::Available && p.get(u).is_none())
         .count() as u32;
     reserve >= inc.reserve_min
@@ -451,7 +459,11 @@ fn absorbed_losses_follow_the_closed_form() {
         assert_eq!(a[0].absorbs, Some(want), "{yaml}");
         assert_eq!(a[0].sequence.len(), want as usize + 1);
         // Check the closed form the expectation rests on.
-        let two = Placement(vec![Some(0), Some(0), None]);
+        let two = Placement(vec![
+            Some(oddsboard::model::TaskIdx::new(0)),
+            Some(oddsboard::model::TaskIdx::new(0)),
+            None,
+        ]);
         let ln = tallies(&inc, &two)[0].ln_odds(&inc.tasks[0]);
         if inc.units.len() == 3 {
             assert!((ln.exp() - 0.99766).abs() < 2e-5, "{}", ln.exp());

@@ -37,6 +37,7 @@ fn building_collapse_life_request_is_found_and_sufficient() {
     // Add the requested units at their types' default ratings and solve.
     let mut bigger = incident.clone();
     for (i, tc) in set.units.iter().enumerate() {
+        let i = oddsboard::model::UnitIdx::new(i);
         let ty = bigger.type_idx(&tc.unit_type).expect("known type");
         for j in 0..tc.count {
             let ratings = bigger.unit_types[ty].ratings.clone();

@@ -109,7 +109,10 @@ fn needs_of_1e300_give_finite_answers() {
     // Φ((8 − 1e300)/1e300) = Φ(−1) = 0.158655 (Abramowitz & Stegun, table
     // 26.1: Φ(1) = 0.8413447461), not the 50 % that z = 0 would give.
     let mut inc = parse_incident_str(NEEDS_1E300, "n.yaml").expect("valid");
-    inc.placement.set(1, Some(0));
+    inc.placement.set(
+        oddsboard::model::UnitIdx::new(1),
+        Some(oddsboard::model::TaskIdx::new(0)),
+    );
     let odds = evaluate(&inc, &inc.placement);
     assert!(
         (odds[0].odds() - 0.158_655_253_9).abs() < 1e-9,

@@ -136,6 +136,7 @@ proptest! {
             let state = walker.state();
             let full = evaluate(state, &state.placement);
             for (t, task) in state.tasks.iter().enumerate() {
+                let t = oddsboard::model::TaskIdx::new(t);
                 if !task.is_open() { continue; }
                 let inc = &walker.ground()[t];
                 let (a, b) = (inc.ln_odds, full[t].ln_odds);

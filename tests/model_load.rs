@@ -35,7 +35,12 @@ fn the_documented_example_loads_with_its_defaults() {
     assert_eq!(inc.secure.get(Tier::Stabilization), 0.95);
     assert_eq!(inc.reserve_min, 1);
     assert_eq!(inc.pins.len(), 1);
-    assert_eq!(inc.placement.units_on(0).count(), 2);
+    assert_eq!(
+        inc.placement
+            .units_on(oddsboard::model::TaskIdx::new(0))
+            .count(),
+        2
+    );
 }
 
 const BASE: &str = "\
@@ -53,8 +58,14 @@ tasks:
 fn a_unit_pinned_to_one_task_may_stand_on_another() {
     let text = format!("{BASE}placement: {{ E1: T2 }}\npins: {{ E1: T1 }}\n");
     let inc = parse_incident_str(&text, "t.yaml").expect("pins bind the plan, not the ground");
-    assert_eq!(inc.placement.get(0), Some(1));
-    assert_eq!(inc.pins.get(&0), Some(&0));
+    assert_eq!(
+        inc.placement.get(oddsboard::model::UnitIdx::new(0)),
+        Some(oddsboard::model::TaskIdx::new(1))
+    );
+    assert_eq!(
+        inc.pins.get(&oddsboard::model::UnitIdx::new(0)),
+        Some(&oddsboard::model::TaskIdx::new(0))
+    );
 }
 
 #[test]

@@ -3,7 +3,7 @@
 //! committed fixture, the product where tasks are independent, and the
 //! project's Monte Carlo simulator inside a Wilson interval.
 
-use oddsboard::model::{Incident, parse_incident_str};
+use oddsboard::model::{Incident, TaskIdx, parse_incident_str};
 use oddsboard::odds::evaluate;
 use oddsboard::odds::joint::{JointMethod, JointOptions, joint_by_tier, joint_odds};
 use oddsboard::odds::simulate::{SimulationOptions, simulate, wilson_interval};
@@ -11,8 +11,8 @@ use rand::rngs::StdRng;
 use rand::{RngExt, SeedableRng};
 use std::fmt::Write as _;
 
-fn all_open(inc: &Incident) -> Vec<usize> {
-    (0..inc.tasks.len())
+fn all_open(inc: &Incident) -> Vec<TaskIdx> {
+    TaskIdx::range(inc.tasks.len())
         .filter(|&t| inc.tasks[t].is_open())
         .collect()
 }
@@ -287,7 +287,7 @@ fn tiers_are_joint_odds_of_their_tasks() {
         let by = joint_by_tier(&inc, &inc.placement, JointOptions::default());
         assert_eq!(by.all, joint(&inc));
         for (tier, j) in &by.tiers {
-            let set: Vec<usize> = all_open(&inc)
+            let set: Vec<TaskIdx> = all_open(&inc)
                 .into_iter()
                 .filter(|&t| inc.tasks[t].tier == *tier)
                 .collect();

@@ -176,14 +176,17 @@ fn random_incident(seed: u64) -> Incident {
                 if rng.random_bool(0.15) {
                     None
                 } else {
-                    Some(rng.random_range(0..n_tasks))
+                    Some(oddsboard::model::TaskIdx::new(rng.random_range(0..n_tasks)))
                 }
             })
             .collect(),
     );
     let tasks = (0..n_tasks)
         .map(|j| {
-            let placed: Vec<&Unit> = placement.units_on(j).map(|u| &units[u]).collect::<Vec<_>>();
+            let placed: Vec<&Unit> = placement
+                .units_on(oddsboard::model::TaskIdx::new(j))
+                .map(|u| &units[u])
+                .collect::<Vec<_>>();
             let needs = (0..n_traits)
                 .map(|k| {
                     let mean: f64 = placed.iter().map(|u| u.ratings[k].mean).sum();

@@ -64,7 +64,7 @@ placement: { C1: T, C2: T, C3: T, C4: T }
     assert!((per_type - closed).abs() < 1e-12);
     let tally = &tallies(&inc, &inc.placement)[0];
     assert!((tally.unit_var(0) - closed).abs() < 1e-12);
-    let full = evaluate_task(&inc, &inc.placement, 0);
+    let full = evaluate_task(&inc, &inc.placement, oddsboard::model::TaskIdx::new(0));
     assert!((full.traits[0].unit_sd.powi(2) - closed).abs() < 1e-12);
     // 40 t expected against 45 needed: short, so the task gambles.
     assert_eq!(full.regime(), Some(Regime::Gamble));
@@ -110,7 +110,7 @@ fn need_sd_adds_to_the_variance() {
     // Capability N(10, 3²) against need N(8, 4²): the difference is
     // N(2, 5²), so the odds are Φ(0.4).
     let inc = incident(SMALL);
-    let t = evaluate_task(&inc, &inc.placement, 0);
+    let t = evaluate_task(&inc, &inc.placement, oddsboard::model::TaskIdx::new(0));
     assert!((t.traits[0].sd - 5.0).abs() < 1e-15);
     assert!((t.traits[0].unit_sd - 3.0).abs() < 1e-15);
     assert!((t.odds() - phi(0.4)).abs() < 1e-15);
@@ -133,8 +133,11 @@ fn no_units_or_below_minimum_is_zero() {
 #[test]
 fn traits_with_no_need_do_not_count() {
     let mut inc = incident(SMALL);
-    inc.placement.set(1, Some(3));
-    let t = evaluate_task(&inc, &inc.placement, 3);
+    inc.placement.set(
+        oddsboard::model::UnitIdx::new(1),
+        Some(oddsboard::model::TaskIdx::new(3)),
+    );
+    let t = evaluate_task(&inc, &inc.placement, oddsboard::model::TaskIdx::new(3));
     assert_eq!(t.traits.len(), 1, "water (need 0, no sd) must not count");
     assert_eq!(t.traits[0].trait_idx, 1);
     assert_eq!(t.odds(), 1.0);
@@ -144,20 +147,36 @@ fn traits_with_no_need_do_not_count() {
 #[test]
 fn regime_follows_the_sign_of_z() {
     let mut inc = incident(SMALL);
-    let short = evaluate_task(&inc, &inc.placement, 0);
+    let short = evaluate_task(&inc, &inc.placement, oddsboard::model::TaskIdx::new(0));
     assert_eq!(short.regime(), Some(Regime::Hedge)); // 10 vs 8
     inc.tasks[0].needs[0].need = 12.0;
-    let t = evaluate_task(&inc, &inc.placement, 0);
+    let t = evaluate_task(&inc, &inc.placement, oddsboard::model::TaskIdx::new(0));
     assert!(t.z() < 0.0);
     assert_eq!(t.regime(), Some(Regime::Gamble));
     // Gamble: more spread raises the odds; hedge: it lowers them.
     let mut wider = inc.clone();
     wider.units[0].ratings[0].sd = 6.0;
-    assert!(evaluate_task(&wider, &wider.placement, 0).ln_odds > t.ln_odds);
+    assert!(
+        evaluate_task(&wider, &wider.placement, oddsboard::model::TaskIdx::new(0)).ln_odds
+            > t.ln_odds
+    );
     let mut steady = incident(SMALL);
-    let before = evaluate_task(&steady, &steady.placement, 0).ln_odds;
+    let before = evaluate_task(
+        &steady,
+        &steady.placement,
+        oddsboard::model::TaskIdx::new(0),
+    )
+    .ln_odds;
     steady.units[0].ratings[0].sd = 6.0;
-    assert!(evaluate_task(&steady, &steady.placement, 0).ln_odds < before);
+    assert!(
+        evaluate_task(
+            &steady,
+            &steady.placement,
+            oddsboard::model::TaskIdx::new(0)
+        )
+        .ln_odds
+            < before
+    );
 }
 
 // ---------------------------------------------------------------------------
@@ -294,6 +313,7 @@ proptest! {
         let mut placement = Placement::all_reserve(inc.units.len());
         let mut live: Vec<TaskTally> = vec![TaskTally::for_incident(&inc); inc.tasks.len()];
         for &(u, to) in &s.moves {
+            let (u, to) = (oddsboard::model::UnitIdx::new(u), to.map(oddsboard::model::TaskIdx::new));
             if let Some(from) = placement.get(u) {
                 live[from].remove(&inc, u);
             }
@@ -302,6 +322,7 @@ proptest! {
             }
             placement.set(u, to);
             for (t, tally) in live.iter().enumerate() {
+                let t = oddsboard::model::TaskIdx::new(t);
                 let full = evaluate_task(&inc, &placement, t);
                 let task = &inc.tasks[t];
                 prop_assert_eq!(tally.count() as usize, full.units.len());
@@ -348,11 +369,13 @@ fn long_runs_do_not_drift() {
     let mut live = tallies(&inc, &placement);
     let mut rng = StdRng::seed_from_u64(9);
     for _ in 0..200_000 {
-        let u = rng.random_range(0..inc.units.len());
+        let u = oddsboard::model::UnitIdx::new(rng.random_range(0..inc.units.len()));
         let to = if rng.random_bool(0.1) {
             None
         } else {
-            Some(rng.random_range(0..inc.tasks.len()))
+            Some(oddsboard::model::TaskIdx::new(
+                rng.random_range(0..inc.tasks.len()),
+            ))
         };
         if let Some(from) = placement.get(u) {
             live[from].remove(&inc, u);
@@ -364,6 +387,7 @@ fn long_runs_do_not_drift() {
     }
     let mut worst = 0.0_f64;
     for (t, tally) in live.iter().enumerate() {
+        let t = oddsboard::model::TaskIdx::new(t);
         let full = evaluate_task(&inc, &placement, t);
         let ln = tally.ln_odds(&inc.tasks[t]);
         assert!(

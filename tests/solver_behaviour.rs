@@ -42,13 +42,21 @@ fn regime_picks_steady_below_and_spread_above() {
     let below = two_options(800.0);
     let r = run(&below, &opts);
     assert!(r.proven_optimal);
-    assert_eq!(r.placement.get(0), Some(0), "steady unit on the task");
-    assert_eq!(r.placement.get(1), None);
+    assert_eq!(
+        r.placement.get(oddsboard::model::UnitIdx::new(0)),
+        Some(oddsboard::model::TaskIdx::new(0)),
+        "steady unit on the task"
+    );
+    assert_eq!(r.placement.get(oddsboard::model::UnitIdx::new(1)), None);
     let above = two_options(1300.0);
     let r = run(&above, &opts);
     assert!(r.proven_optimal);
-    assert_eq!(r.placement.get(1), Some(0), "spread unit on the task");
-    assert_eq!(r.placement.get(0), None);
+    assert_eq!(
+        r.placement.get(oddsboard::model::UnitIdx::new(1)),
+        Some(oddsboard::model::TaskIdx::new(0)),
+        "spread unit on the task"
+    );
+    assert_eq!(r.placement.get(oddsboard::model::UnitIdx::new(0)), None);
 }
 
 fn anytime(seed: u64, budget_ms: u64) -> SolveOptions {
@@ -102,10 +110,10 @@ fn larger_budget_never_worse_on_bench_incidents() {
 fn constraints_hold_on_generated_incidents() {
     let mut inc = generate(&GenerateSpec::new(60, 8, 3).seed(2)).expect("loads");
     inc.reserve_min = 5;
-    let u = (0..inc.units.len())
-        .find(|&u| inc.may_place(u, 0))
+    let u = oddsboard::model::UnitIdx::range(inc.units.len())
+        .find(|&u| inc.may_place(u, oddsboard::model::TaskIdx::new(0)))
         .expect("some unit fits task 0");
-    inc.pins.insert(u, 0);
+    inc.pins.insert(u, oddsboard::model::TaskIdx::new(0));
     for from_scratch in [false, true] {
         let r = run(
             &inc,
@@ -116,8 +124,12 @@ fn constraints_hold_on_generated_incidents() {
             },
         );
         let p = &r.placement;
-        assert_eq!(p.get(u), Some(0), "pin kept");
-        let reserve = (0..inc.units.len())
+        assert_eq!(
+            p.get(u),
+            Some(oddsboard::model::TaskIdx::new(0)),
+            "pin kept"
+        );
+        let reserve = oddsboard::model::UnitIdx::range(inc.units.len())
             .filter(|&x| {
                 inc.units[x].status == oddsboard::model::UnitStatus::Available && p.get(x).is_none()
             })
@@ -125,10 +137,14 @@ fn constraints_hold_on_generated_incidents() {
         assert!(reserve >= 5, "reserve kept");
         for (x, t) in p.0.iter().enumerate() {
             if let Some(t) = t {
-                assert!(inc.may_place(x, *t), "unit {x} may not go to {t}");
+                assert!(
+                    inc.may_place(oddsboard::model::UnitIdx::new(x), *t),
+                    "unit {x} may not go to {t}"
+                );
             }
         }
         for (t, task) in inc.tasks.iter().enumerate() {
+            let t = oddsboard::model::TaskIdx::new(t);
             if let Some(m) = task.max_units {
                 assert!(p.units_on(t).count() as u32 <= m);
             }
@@ -147,8 +163,14 @@ fn infeasible_constraints_name_the_field() {
         Ok(()) => panic!("reserve larger than the roster must fail"),
     }
     let mut inc = two_options(800.0);
-    inc.pins.insert(0, 0);
-    inc.pins.insert(1, 0);
+    inc.pins.insert(
+        oddsboard::model::UnitIdx::new(0),
+        oddsboard::model::TaskIdx::new(0),
+    );
+    inc.pins.insert(
+        oddsboard::model::UnitIdx::new(1),
+        oddsboard::model::TaskIdx::new(0),
+    );
     let err = solve(
         &inc,
         &SolveOptions::default(),
@@ -183,12 +205,15 @@ fn baselines_are_feasible_and_never_beat_the_proven_plan() {
         baselines::mean_minus_spread(&inc, 1.0),
         baselines::random_feasible(&inc, 5),
     ] {
-        assert!(p.units_on(0).count() <= 1);
+        assert!(p.units_on(oddsboard::model::TaskIdx::new(0)).count() <= 1);
         assert!(!ObjectiveKey::of(&inc, &p).better_than(&r.key));
     }
     // Risk-averse prefers the steady unit even when the need is above both
     // means; the risk-adaptive plan takes the spread one.
-    assert_eq!(baselines::mean_minus_spread(&inc, 1.0).get(0), Some(0));
+    assert_eq!(
+        baselines::mean_minus_spread(&inc, 1.0).get(oddsboard::model::UnitIdx::new(0)),
+        Some(oddsboard::model::TaskIdx::new(0))
+    );
 }
 
 #[test]
@@ -258,7 +283,11 @@ placement: { E1: T1, E2: T1, W1: T2 }
     assert_eq!(r.moves.len(), 1, "{:?}", r.moves);
     assert_eq!(
         (r.moves[0].unit, r.moves[0].from, r.moves[0].to),
-        (3, None, Some(1))
+        (
+            oddsboard::model::UnitIdx::new(3),
+            None,
+            Some(oddsboard::model::TaskIdx::new(1))
+        )
     );
     let worst = r.key.worst_odds_per_tier();
     let life = worst[0].expect("life task");

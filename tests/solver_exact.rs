@@ -174,8 +174,8 @@ fn small_incident(seed: u64) -> Option<Incident> {
 /// units in reserve.
 fn all_plans(inc: &Incident) -> Vec<Placement> {
     let n = inc.units.len();
-    let mut options: Vec<Vec<Option<usize>>> = Vec::new();
-    for u in 0..n {
+    let mut options: Vec<Vec<Option<oddsboard::model::TaskIdx>>> = Vec::new();
+    for u in oddsboard::model::UnitIdx::range(n) {
         if let Some(&t) = inc.pins.get(&u) {
             options.push(vec![Some(t)]);
         } else if inc.units[u].status != UnitStatus::Available {
@@ -183,7 +183,7 @@ fn all_plans(inc: &Incident) -> Vec<Placement> {
         } else {
             let mut o = vec![None];
             o.extend(
-                (0..inc.tasks.len())
+                oddsboard::model::TaskIdx::range(inc.tasks.len())
                     .filter(|&t| inc.may_place(u, t))
                     .map(Some),
             );
@@ -196,9 +196,9 @@ fn all_plans(inc: &Incident) -> Vec<Placement> {
         let p = Placement((0..n).map(|u| options[u][idx[u]]).collect());
         let within_max = inc.tasks.iter().enumerate().all(|(t, task)| {
             task.max_units
-                .is_none_or(|m| p.units_on(t).count() as u32 <= m)
+                .is_none_or(|m| p.units_on(oddsboard::model::TaskIdx::new(t)).count() as u32 <= m)
         });
-        let reserve = (0..n)
+        let reserve = oddsboard::model::UnitIdx::range(n)
             .filter(|&u| {
                 inc.units[u].status == UnitStatus::Available
                     && !inc.pins.contains_key(&u)
@@ -306,7 +306,7 @@ fn meets(k: &ObjectiveKey, thr: &[f64]) -> bool {
 /// dispatch sends a unit to a task from reserve (or a closed task).
 fn disruption_of(inc: &Incident, p: &Placement) -> (usize, usize) {
     let (mut w, mut d) = (0, 0);
-    for u in 0..inc.units.len() {
+    for u in oddsboard::model::UnitIdx::range(inc.units.len()) {
         let (g, to) = (inc.placement.get(u), p.get(u));
         if g == to {
             continue;

@@ -35,7 +35,7 @@ fn odds(inc: &Incident, p: &Placement) -> Vec<f64> {
 fn idle_lifts(inc: &Incident, plan: &Placement) -> Vec<String> {
     let before = odds(inc, plan);
     let secure = inc.secure.get(Tier::Life);
-    let reserve = (0..inc.units.len())
+    let reserve = oddsboard::model::UnitIdx::range(inc.units.len())
         .filter(|&u| {
             inc.units[u].status == UnitStatus::Available
                 && !inc.pins.contains_key(&u)
@@ -46,11 +46,12 @@ fn idle_lifts(inc: &Incident, plan: &Placement) -> Vec<String> {
     if reserve <= inc.reserve_min {
         return out;
     }
-    for u in 0..inc.units.len() {
+    for u in oddsboard::model::UnitIdx::range(inc.units.len()) {
         if plan.get(u).is_some() || inc.units[u].status != UnitStatus::Available {
             continue;
         }
         for (t, task) in inc.tasks.iter().enumerate() {
+            let t = oddsboard::model::TaskIdx::new(t);
             let room = task
                 .max_units
                 .is_none_or(|m| (plan.units_on(t).count() as u32) < m);

@@ -21,8 +21,8 @@ fn ev(s: &str) -> Event {
 type Where = (String, Option<String>, Option<String>, Vec<(f64, f64)>);
 
 fn where_is(inc: &Incident) -> Vec<Where> {
-    let task = |t: usize| inc.tasks[t].id.clone();
-    (0..inc.units.len())
+    let task = |t: oddsboard::model::TaskIdx| inc.tasks[t].id.clone();
+    oddsboard::model::UnitIdx::range(inc.units.len())
         .map(|u| {
             (
                 inc.units[u].id.clone(),
@@ -40,8 +40,8 @@ fn where_is(inc: &Incident) -> Vec<Where> {
 
 /// A placed, unpinned unit early in the roster, so that many units follow it
 /// (a removal would have shifted all of them).
-fn early_placed(inc: &Incident) -> usize {
-    (0..inc.units.len())
+fn early_placed(inc: &Incident) -> oddsboard::model::UnitIdx {
+    oddsboard::model::UnitIdx::range(inc.units.len())
         .find(|&u| inc.placement.get(u).is_some() && !inc.pins.contains_key(&u))
         .expect("the sample has a placed unpinned unit")
 }
@@ -51,7 +51,7 @@ fn a_loss_moves_no_other_unit() {
     let before = sample();
     let lost = early_placed(&before);
     assert!(
-        before.units.len() - lost > 5,
+        before.units.len() - lost.index() > 5,
         "units follow the lost one: the check could fail"
     );
     assert!(!before.pins.is_empty(), "the sample has pins to keep");
@@ -61,7 +61,7 @@ fn a_loss_moves_no_other_unit() {
     let (w0, w1) = (where_is(&before), where_is(&after));
     assert_eq!(w0.len(), w1.len(), "the lost unit keeps its slot");
     for u in 0..w0.len() {
-        if u == lost {
+        if u == lost.index() {
             assert_eq!(w1[u].0, id);
             assert_eq!((&w1[u].1, &w1[u].2), (&None, &None), "the lost unit left");
             assert_eq!(after.units[u].status, UnitStatus::Lost);
@@ -103,7 +103,7 @@ fn a_placement_taken_before_a_loss_still_applies_after_it() {
     apply(&mut after, &ev(&format!("{{kind: unit_lost, unit: {id}}}"))).expect("applies");
     // Every other unit's planned task, read by index after the loss, is the
     // task planned for the same id before it.
-    for u in (0..after.units.len()).filter(|&u| u != lost) {
+    for u in oddsboard::model::UnitIdx::range(after.units.len()).filter(|&u| u != lost) {
         let by_id = before.unit_idx(&after.units[u].id).expect("same id");
         assert_eq!(by_id, u, "index of {} changed", after.units[u].id);
         assert_eq!(plan.placement.get(u), plan.placement.get(by_id));
@@ -131,8 +131,11 @@ fn a_log_with_a_loss_folds_to_the_same_indices() {
     let state = fold(&contents.records).expect("folds");
     assert_eq!(state.units[lost].id, id);
     assert!(state.units[lost].is_lost());
-    assert_eq!(state.unit_idx("X99"), Some(inc.units.len()));
-    for u in (0..inc.units.len()).filter(|&u| u != lost) {
+    assert_eq!(
+        state.unit_idx("X99"),
+        Some(oddsboard::model::UnitIdx::new(inc.units.len()))
+    );
+    for u in oddsboard::model::UnitIdx::range(inc.units.len()).filter(|&u| u != lost) {
         assert_eq!(state.units[u].id, inc.units[u].id);
         assert_eq!(state.placement.get(u), inc.placement.get(u));
         assert_eq!(state.pins.get(&u), inc.pins.get(&u));

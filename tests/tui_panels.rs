@@ -73,7 +73,7 @@ fn stale_solver_results_are_dropped() {
     let mut s = state(Mode::Command, drill());
     s.generation = 3;
     let mut other = s.incident.placement.clone();
-    other.set(0, None);
+    other.set(oddsboard::model::UnitIdx::new(0), None);
     update(
         &mut s,
         AppEvent::SolverFinished {

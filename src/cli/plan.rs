@@ -128,7 +128,7 @@ struct PlanJson<'a> {
     cautions: &'static [&'static str],
 }
 
-fn task_name(incident: &Incident, t: Option<usize>) -> String {
+fn task_name(incident: &Incident, t: Option<oddsboard_core::model::TaskIdx>) -> String {
     t.map_or_else(|| "reserve".to_string(), |t| incident.tasks[t].id.clone())
 }
 

@@ -11,7 +11,7 @@
 use super::CliResult;
 use super::input::{load_state, looks_like_log, read_log_reporting};
 use super::render::{format_amount, format_margin, format_z, safety_notes, tier_title};
-use crate::model::{Incident, Tier, UnitIdx, UnitStatus};
+use crate::model::{Incident, TaskIdx, Tier, UnitIdx, UnitStatus};
 use crate::odds::text::{pct, pct_detail};
 use crate::odds::view::{TaskView, task_views};
 use crate::safety;
@@ -150,7 +150,7 @@ fn brings(inc: &Incident, u: UnitIdx) -> Vec<usize> {
 /// The safety notes about one task, then, for a task short of its tier's
 /// secure level, the reserve units that could add to its binding trait (an
 /// idle unit while a task it could lift stays short is worth a look).
-fn task_notes(inc: &Incident, t: usize, v: &TaskView, binding: Option<usize>) -> Vec<String> {
+fn task_notes(inc: &Incident, t: TaskIdx, v: &TaskView, binding: Option<usize>) -> Vec<String> {
     let mut notes = safety_notes(std::slice::from_ref(v));
     let task = &inc.tasks[t];
     let (Some(k), true) = (binding, v.odds < inc.secure.get(task.tier)) else {
@@ -159,7 +159,7 @@ fn task_notes(inc: &Incident, t: usize, v: &TaskView, binding: Option<usize>) ->
     let full = task
         .max_units
         .is_some_and(|m| inc.placement.units_on(t).count() >= m as usize);
-    let helpers: Vec<&str> = (0..inc.units.len())
+    let helpers: Vec<&str> = oddsboard_core::model::UnitIdx::range(inc.units.len())
         .filter(|&u| inc.placement.get(u).is_none() && inc.may_place(u, t))
         .filter(|&u| inc.units[u].ratings[k].mean > 0.0)
         .map(|u| inc.units[u].id.as_str())
@@ -236,7 +236,7 @@ pub fn build(inc: &Incident, as_of: Option<(u64, String)>) -> Sheet {
         }
     }
     let idle = |status: UnitStatus| -> Vec<SheetUnit> {
-        (0..inc.units.len())
+        oddsboard_core::model::UnitIdx::range(inc.units.len())
             .filter(|&u| inc.units[u].status == status && inc.placement.get(u).is_none())
             .map(|u| unit_entry(inc, u, &brings(inc, u)))
             .collect()

@@ -126,7 +126,7 @@ impl Replanner {
             walker.set_proposal(None);
             return None;
         };
-        let id = |t: Option<usize>| t.map(|t| state.tasks[t].id.clone());
+        let id = |t: Option<oddsboard_core::model::TaskIdx>| t.map(|t| state.tasks[t].id.clone());
         self.previous = Some(
             report
                 .placement

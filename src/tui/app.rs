@@ -581,7 +581,7 @@ fn on_record(state: &mut AppState, record: Record) -> Vec<Effect> {
         }
         Event::TaskClosed { task, outcome } => {
             if let Some(t) = state.incident.task_idx(task) {
-                let odds = state.ground.get(t).map_or(0.0, |o| o.odds());
+                let odds = state.ground.get(t.index()).map_or(0.0, |o| o.odds());
                 state
                     .closed
                     .push((task.clone(), outcome.as_str().to_string(), odds));

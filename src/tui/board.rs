@@ -30,11 +30,14 @@ impl Proposal {
 
 /// Open tasks by tier (highest first) in file order, then closed tasks.
 pub fn task_order(incident: &Incident) -> Vec<TaskIdx> {
-    let mut open: Vec<TaskIdx> = (0..incident.tasks.len())
+    let mut open: Vec<TaskIdx> = oddsboard_core::model::TaskIdx::range(incident.tasks.len())
         .filter(|&t| incident.tasks[t].is_open())
         .collect();
     open.sort_by_key(|&t| incident.tasks[t].tier);
-    open.extend((0..incident.tasks.len()).filter(|&t| !incident.tasks[t].is_open()));
+    open.extend(
+        oddsboard_core::model::TaskIdx::range(incident.tasks.len())
+            .filter(|&t| !incident.tasks[t].is_open()),
+    );
     open
 }
 
@@ -75,7 +78,7 @@ pub fn place_name(incident: &Incident, t: Option<TaskIdx>) -> String {
 
 /// Available units in reserve, in roster order.
 pub fn reserve_units(incident: &Incident) -> Vec<UnitIdx> {
-    (0..incident.units.len())
+    oddsboard_core::model::UnitIdx::range(incident.units.len())
         .filter(|&u| {
             incident.units[u].status == UnitStatus::Available && incident.placement.get(u).is_none()
         })
@@ -84,7 +87,7 @@ pub fn reserve_units(incident: &Incident) -> Vec<UnitIdx> {
 
 /// Units out of service, in roster order.
 pub fn out_of_service_units(incident: &Incident) -> Vec<UnitIdx> {
-    (0..incident.units.len())
+    oddsboard_core::model::UnitIdx::range(incident.units.len())
         .filter(|&u| incident.units[u].status == UnitStatus::OutOfService)
         .collect()
 }

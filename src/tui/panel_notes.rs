@@ -38,7 +38,7 @@ pub fn contextual(state: &AppState) -> Vec<String> {
         }
     }
     if let Some(p) = &state.proposal {
-        let mut by_task: Vec<(usize, Vec<String>)> = Vec::new();
+        let mut by_task: Vec<(oddsboard_core::model::TaskIdx, Vec<String>)> = Vec::new();
         for m in &p.moves {
             if let Some(from) = m.from {
                 let id = inc.units[m.unit].id.clone();

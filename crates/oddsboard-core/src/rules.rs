@@ -104,7 +104,7 @@ pub fn reserve_count(inc: &Incident, p: &Placement) -> usize {
     inc.units
         .iter()
         .enumerate()
-        .filter(|(u, unit)| counts_in_reserve(unit) && p.get(*u).is_none())
+        .filter(|(u, unit)| counts_in_reserve(unit) && p.get(UnitIdx::new(*u)).is_none())
         .count()
 }
 
@@ -124,7 +124,7 @@ pub fn free_for_reserve(inc: &Incident) -> usize {
     inc.units
         .iter()
         .enumerate()
-        .filter(|(u, unit)| counts_in_reserve(unit) && !inc.pins.contains_key(u))
+        .filter(|(u, unit)| counts_in_reserve(unit) && !inc.pins.contains_key(&UnitIdx::new(*u)))
         .count()
 }
 
@@ -164,6 +164,7 @@ pub fn pin_violation(inc: &Incident, u: UnitIdx, t: TaskIdx) -> Option<Violation
 pub fn count_violations(inc: &Incident, ground: bool) -> Vec<Violation> {
     let mut out = Vec::new();
     for (t, task) in inc.tasks.iter().enumerate() {
+        let t = crate::model::TaskIdx::new(t);
         let Some(max) = task.max_units else { continue };
         let pinned = pinned_to(inc, t, None);
         if over_capacity(task, pinned) {
@@ -319,20 +320,29 @@ placement: { E1: T1 }
     #[test]
     fn each_refusal_has_its_reason() {
         let inc = parse_incident_str(YAML, "t.yaml").expect("valid");
-        assert_eq!(may_go(&inc, 1, 0), Ok(()));
-        assert_eq!(may_go(&inc, 2, 0), Err(Refusal::OutOfService));
-        assert_eq!(may_go(&inc, 0, 1), Err(Refusal::Closed(Outcome::Succeeded)));
-        let r = may_go(&inc, 3, 0).expect_err("boat on T1");
+        assert_eq!(may_go(&inc, UnitIdx::new(1), TaskIdx::new(0)), Ok(()));
+        assert_eq!(
+            may_go(&inc, UnitIdx::new(2), TaskIdx::new(0)),
+            Err(Refusal::OutOfService)
+        );
+        assert_eq!(
+            may_go(&inc, UnitIdx::new(0), TaskIdx::new(1)),
+            Err(Refusal::Closed(Outcome::Succeeded))
+        );
+        let r = may_go(&inc, UnitIdx::new(3), TaskIdx::new(0)).expect_err("boat on T1");
         assert_eq!(r.reason(&inc), "the task does not accept unit type `boat`");
-        assert!(can_go(&inc, 3, 2));
+        assert!(can_go(&inc, UnitIdx::new(3), TaskIdx::new(2)));
         // A lost unit keeps its slot but may go nowhere, and no longer
         // counts toward the reserve.
         let mut lost = inc.clone();
-        lost.remove_unit(1);
-        assert_eq!(may_go(&lost, 1, 2), Err(Refusal::Lost));
+        lost.remove_unit(UnitIdx::new(1));
+        assert_eq!(
+            may_go(&lost, UnitIdx::new(1), TaskIdx::new(2)),
+            Err(Refusal::Lost)
+        );
         assert_eq!(reserve_count(&lost, &lost.placement), 1);
         assert_eq!(lost.unit_idx("E2"), None);
-        assert_eq!(lost.unit_slot("E2"), Some(1));
+        assert_eq!(lost.unit_slot("E2"), Some(UnitIdx::new(1)));
     }
 
     #[test]
@@ -356,12 +366,13 @@ placement: { E1: T1 }
     fn a_move_that_makes_a_broken_count_worse_is_refused() {
         let inc = parse_incident_str(YAML, "t.yaml").expect("valid");
         let mut p = inc.placement.clone();
-        p.set(1, Some(0));
-        let why = ground_problem(&inc, &p, &[1], "placed").expect("over max");
+        p.set(UnitIdx::new(1), Some(TaskIdx::new(0)));
+        let why = ground_problem(&inc, &p, &[UnitIdx::new(1)], "placed").expect("over max");
         assert!(why.contains("at most 1 units"), "{why}");
-        p.set(1, Some(2));
-        p.set(3, Some(2));
-        let why = ground_problem(&inc, &p, &[1, 3], "placed").expect("reserve");
+        p.set(UnitIdx::new(1), Some(TaskIdx::new(2)));
+        p.set(UnitIdx::new(3), Some(TaskIdx::new(2)));
+        let why = ground_problem(&inc, &p, &[UnitIdx::new(1), UnitIdx::new(3)], "placed")
+            .expect("reserve");
         assert!(why.contains("at least 1 units in reserve"), "{why}");
     }
 }

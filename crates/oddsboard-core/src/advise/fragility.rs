@@ -92,7 +92,7 @@ struct TaskState {
 }
 
 fn task_states(incident: &Incident, placement: &Placement) -> Vec<TaskState> {
-    (0..incident.tasks.len())
+    crate::model::TaskIdx::range(incident.tasks.len())
         .map(|t| {
             let o = evaluate_task(incident, placement, t);
             TaskState {
@@ -136,7 +136,7 @@ pub fn unit_losses(
 ) -> Result<Vec<UnitLoss>, AdviseError> {
     let before = task_states(incident, &base.placement);
     let mut out = Vec::new();
-    for u in 0..incident.units.len() {
+    for u in crate::model::UnitIdx::range(incident.units.len()) {
         let Some(on) = incident.placement.get(u) else {
             continue;
         };
@@ -169,6 +169,7 @@ pub fn unit_losses(
             Ok(report) => {
                 let after = task_states(&lost, &report.placement);
                 for (t, task) in incident.tasks.iter().enumerate() {
+                    let t = crate::model::TaskIdx::new(t);
                     if !task.is_open() {
                         continue;
                     }
@@ -216,6 +217,7 @@ pub fn task_absorbs(
     let base_tallies = tallies(incident, &base.placement);
     let mut out = Vec::new();
     for (t, task) in incident.tasks.iter().enumerate() {
+        let t = crate::model::TaskIdx::new(t);
         if !task.is_open() {
             continue;
         }
@@ -259,7 +261,7 @@ fn absorb_one(
     let task = &incident.tasks[t];
     while count < ABSORB_CAP {
         // The unit whose removal hurts the task most, on the current plan.
-        let mut tally = tallies(&inc, &plan).swap_remove(t);
+        let mut tally = tallies(&inc, &plan).swap_remove(t.index());
         let on: Vec<UnitIdx> = plan.units_on(t).collect();
         let mut worst: Option<(UnitIdx, f64)> = None;
         for &u in &on {

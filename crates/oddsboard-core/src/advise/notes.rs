@@ -77,6 +77,7 @@ pub fn notes(
 ) -> Vec<Note> {
     let mut out = Vec::new();
     for (t, task) in incident.tasks.iter().enumerate() {
+        let t = crate::model::TaskIdx::new(t);
         if !task.is_open() || task.tier != Tier::Life {
             continue;
         }

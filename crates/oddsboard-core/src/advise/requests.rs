@@ -51,7 +51,7 @@
 //! includes what a short higher tier would take from it.
 
 use super::{AdviseError, AdviseOptions, TierOdds, tier_odds};
-use crate::model::{Incident, Placement, TaskIdx, Tier, TypeIdx, Unit, UnitStatus};
+use crate::model::{Incident, Placement, TaskIdx, Tier, TypeIdx, Unit, UnitIdx, UnitStatus};
 use crate::odds::{TaskTally, tallies};
 use crate::rules;
 use crate::solver::key::{cmp_ln, ln_cap};
@@ -235,7 +235,7 @@ struct Screen {
     totals: Vec<(usize, f64, f64)>,
 }
 
-fn may_go(incident: &Incident, u: usize, t: TaskIdx) -> bool {
+fn may_go(incident: &Incident, u: UnitIdx, t: TaskIdx) -> bool {
     rules::plan_may_put(incident, u, t)
 }
 
@@ -252,7 +252,7 @@ impl Screen {
                 }
                 let threshold = need.need + z * need.sd;
                 need_total[k] += threshold;
-                let mut means: Vec<f64> = (0..incident.units.len())
+                let mut means: Vec<f64> = crate::model::UnitIdx::range(incident.units.len())
                     .filter(|&u| may_go(incident, u, t))
                     .map(|u| incident.units[u].ratings[k].mean)
                     .collect();
@@ -273,7 +273,7 @@ impl Screen {
         let totals = (0..n_traits)
             .filter(|&k| need_total[k] > 0.0)
             .map(|k| {
-                let have: f64 = (0..incident.units.len())
+                let have: f64 = crate::model::UnitIdx::range(incident.units.len())
                     .filter(|&u| tasks.iter().any(|&t| may_go(incident, u, t)))
                     .map(|u| incident.units[u].ratings[k].mean)
                     .sum();
@@ -496,7 +496,7 @@ pub fn tier_requests(
             continue;
         }
         let cap = ln_cap(incident, tier);
-        let tasks: Vec<TaskIdx> = (0..incident.tasks.len())
+        let tasks: Vec<TaskIdx> = crate::model::TaskIdx::range(incident.tasks.len())
             .filter(|&t| incident.tasks[t].is_open() && incident.tasks[t].tier == tier)
             .collect();
         let short: Vec<TaskIdx> = tasks
@@ -591,7 +591,7 @@ fn search_tier(
     let mut warm;
     // The exact search can judge every candidate on small incidents; on
     // larger ones a candidate is first inserted into the best plan.
-    let movable = (0..incident.units.len())
+    let movable = crate::model::UnitIdx::range(incident.units.len())
         .filter(|u| rules::counts_in_reserve(&incident.units[*u]) && !incident.pins.contains_key(u))
         .count();
     let insertion_only = movable + options.max_extra_units > options.exact_max_units;
@@ -745,10 +745,11 @@ impl Insertion {
     /// [`with_extra_units`] adds them, when every task ends at `cap`.
     fn insert(&self, pool: &Incident, counts: &[usize], cap: f64) -> Option<Vec<Option<TaskIdx>>> {
         // Pool units of each type, in the order they were added.
-        let mut left: Vec<usize> = Vec::new();
-        let mut order: Vec<usize> = Vec::new();
+        let mut left: Vec<UnitIdx> = Vec::new();
+        let mut order: Vec<UnitIdx> = Vec::new();
         for (ty, &c) in counts.iter().enumerate() {
-            let of_type: Vec<usize> = (self.n_existing..pool.units.len())
+            let of_type: Vec<UnitIdx> = (self.n_existing..pool.units.len())
+                .map(UnitIdx::new)
                 .filter(|&u| pool.units[u].type_idx == ty)
                 .take(c)
                 .collect();
@@ -756,7 +757,7 @@ impl Insertion {
             left.extend(of_type);
         }
         let mut tasks = self.tasks.clone();
-        let mut place: Vec<(usize, TaskIdx)> = Vec::new();
+        let mut place: Vec<(UnitIdx, TaskIdx)> = Vec::new();
         loop {
             let mut below: Vec<(usize, f64)> = tasks
                 .iter()
@@ -839,7 +840,7 @@ mod tests {
     #[test]
     fn top_m_bound() {
         let l = TraitLimit {
-            task: 0,
+            task: TaskIdx::new(0),
             k: 0,
             threshold: 0.0,
             prefix: vec![0.0, 5.0, 8.0, 9.0],
@@ -858,7 +859,7 @@ mod tests {
             for count in 0..9 {
                 for v in [0.5, 2.0, 4.0, 9.0] {
                     let l = TraitLimit {
-                        task: 0,
+                        task: TaskIdx::new(0),
                         k: 0,
                         threshold: 0.0,
                         prefix: vec![0.0, 5.0, 8.0, 9.0],
@@ -876,7 +877,7 @@ mod tests {
         // The file's largest max_units: no allocation; the best keeps the
         // own unit of mean 5 beside 2³²−2 copies of mean 1.
         let l = TraitLimit {
-            task: 0,
+            task: TaskIdx::new(0),
             k: 0,
             threshold: 0.0,
             prefix: vec![0.0, 5.0],

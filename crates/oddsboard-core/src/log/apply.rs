@@ -393,7 +393,11 @@ placement: { E1: T1 }
     fn pins_bind_the_plan_not_the_ground() {
         let mut s = state();
         apply(&mut s, &ev("{kind: pinned, unit: E2, task: T2}")).expect("pin");
-        assert_eq!(s.placement.get(1), None, "a pin does not move the unit");
+        assert_eq!(
+            s.placement.get(crate::model::UnitIdx::new(1)),
+            None,
+            "a pin does not move the unit"
+        );
         let err = apply(&mut s, &ev("{kind: moved, unit: E2, to: T1}")).expect_err("pinned");
         assert!(err.to_string().contains("pinned to T2"), "{err}");
         apply(
@@ -407,7 +411,7 @@ placement: { E1: T1 }
             &ev("{kind: unit_status, unit: E2, status: out_of_service}"),
         )
         .expect("oos");
-        assert_eq!(s.placement.get(1), None);
+        assert_eq!(s.placement.get(crate::model::UnitIdx::new(1)), None);
         assert!(s.pins.is_empty());
     }
 
@@ -432,7 +436,7 @@ placement: { E1: T1 }
         )
         .expect("close");
         assert_eq!(
-            s.placement.get(0),
+            s.placement.get(crate::model::UnitIdx::new(0)),
             None,
             "units of a closed task go to reserve"
         );

@@ -23,10 +23,13 @@ fn pick<'a, T>(rng: &mut Xoshiro256PlusPlus, v: &'a [T]) -> Option<&'a T> {
 fn random_move(rng: &mut Xoshiro256PlusPlus, s: &Incident) -> Option<Move> {
     let u = rng.random_range(0..s.units.len().max(1));
     let unit = s.units.get(u)?;
+    let u = crate::model::UnitIdx::new(u);
     if unit.status != UnitStatus::Available {
         return None;
     }
-    let open: Vec<usize> = (0..s.tasks.len()).filter(|&t| s.may_place(u, t)).collect();
+    let open: Vec<crate::model::TaskIdx> = crate::model::TaskIdx::range(s.tasks.len())
+        .filter(|&t| s.may_place(u, t))
+        .collect();
     let to = if rng.random_bool(0.2) {
         None
     } else {
@@ -121,7 +124,7 @@ fn random_event(rng: &mut Xoshiro256PlusPlus, s: &Incident, last: Option<&Event>
                 unit: s.units[u].id.clone(),
             }
         } else {
-            let u = rng.random_range(0..s.units.len().max(1));
+            let u = crate::model::UnitIdx::new(rng.random_range(0..s.units.len().max(1)));
             let t = s.placement.get(u)?;
             Event::Pinned {
                 unit: s.units[u].id.clone(),

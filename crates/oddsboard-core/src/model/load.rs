@@ -948,6 +948,7 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
     let mut broken_tasks = vec![false; f.tasks.len()];
     let mut seen = Seen::new();
     for (i, u) in f.units.iter().enumerate() {
+        let i = crate::model::UnitIdx::new(i);
         let path = format!("units[{i}]");
         check_id(sink, &path, &u.id, &mut seen, "unit");
         if let Some(unit) = convert_unit(&incident, u, &path, sink) {
@@ -965,6 +966,7 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
     }
     let mut seen = Seen::new();
     for (i, t) in f.tasks.iter().enumerate() {
+        let i = crate::model::TaskIdx::new(i);
         let path = format!("tasks[{i}]");
         check_id(sink, &path, &t.id, &mut seen, "task");
         let task = convert_task(&incident, t, &path, sink);

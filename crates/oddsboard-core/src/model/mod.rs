@@ -26,10 +26,73 @@ use std::collections::BTreeMap;
 pub type TraitIdx = usize;
 /// Index of a unit type in [`Incident::unit_types`].
 pub type TypeIdx = usize;
-/// Index of a unit in [`Incident::units`].
-pub type UnitIdx = usize;
-/// Index of a task in [`Incident::tasks`].
-pub type TaskIdx = usize;
+/// Declares a typed index into one `Vec`: a unit index cannot be used where
+/// a task index is meant. Dense loops convert with `index()` / `new()`.
+macro_rules! typed_index {
+    ($(#[$doc:meta])* $name:ident) => {
+        $(#[$doc])*
+        #[derive(Copy, Clone, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
+        pub struct $name(u32);
+
+        impl $name {
+            /// Panics past `u32::MAX`, far above any incident the loader accepts.
+            #[inline]
+            pub fn new(i: usize) -> Self {
+                $name(u32::try_from(i).expect("index fits in u32"))
+            }
+            #[inline]
+            pub fn index(self) -> usize {
+                self.0 as usize
+            }
+            /// Every index below `n`, in order.
+            pub fn range(n: usize) -> impl DoubleEndedIterator<Item = Self> + Clone {
+                (0..n).map($name::new)
+            }
+        }
+
+        impl std::fmt::Display for $name {
+            fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+                self.0.fmt(f)
+            }
+        }
+
+        impl<T> std::ops::Index<$name> for Vec<T> {
+            type Output = T;
+            #[inline]
+            fn index(&self, i: $name) -> &T {
+                &self[i.index()]
+            }
+        }
+        impl<T> std::ops::IndexMut<$name> for Vec<T> {
+            #[inline]
+            fn index_mut(&mut self, i: $name) -> &mut T {
+                &mut self[i.index()]
+            }
+        }
+        impl<T> std::ops::Index<$name> for [T] {
+            type Output = T;
+            #[inline]
+            fn index(&self, i: $name) -> &T {
+                &self[i.index()]
+            }
+        }
+        impl<T> std::ops::IndexMut<$name> for [T] {
+            #[inline]
+            fn index_mut(&mut self, i: $name) -> &mut T {
+                &mut self[i.index()]
+            }
+        }
+    };
+}
+
+typed_index!(
+    /// Index of a unit in [`Incident::units`].
+    UnitIdx
+);
+typed_index!(
+    /// Index of a task in [`Incident::tasks`].
+    TaskIdx
+);
 
 /// A capability dimension, e.g. water delivery in L/min.
 #[derive(Debug, Clone, PartialEq)]
@@ -237,7 +300,7 @@ impl Placement {
         Placement(vec![None; n_units])
     }
     pub fn get(&self, u: UnitIdx) -> Option<TaskIdx> {
-        self.0.get(u).copied().flatten()
+        self.0.get(u.index()).copied().flatten()
     }
     pub fn set(&mut self, u: UnitIdx, t: Option<TaskIdx>) {
         self.0[u] = t;
@@ -253,7 +316,7 @@ impl Placement {
         self.0
             .iter()
             .enumerate()
-            .filter_map(move |(u, p)| (*p == Some(t)).then_some(u))
+            .filter_map(move |(u, p)| (*p == Some(t)).then_some(UnitIdx::new(u)))
     }
     /// Number of units whose position differs between the two placements.
     pub fn moves_from(&self, other: &Placement) -> usize {
@@ -289,11 +352,14 @@ impl Incident {
     }
     /// The unit on the roster with this id (a lost unit is not).
     pub fn unit_idx(&self, id: &str) -> Option<UnitIdx> {
-        self.units.iter().position(|u| u.id == id && !u.is_lost())
+        self.units
+            .iter()
+            .position(|u| u.id == id && !u.is_lost())
+            .map(UnitIdx::new)
     }
     /// The slot of this id, a lost unit's tombstone included.
     pub fn unit_slot(&self, id: &str) -> Option<UnitIdx> {
-        self.units.iter().position(|u| u.id == id)
+        self.units.iter().position(|u| u.id == id).map(UnitIdx::new)
     }
     /// How many units are on the roster (lost ones are not).
     pub fn roster_len(&self) -> usize {
@@ -301,10 +367,14 @@ impl Incident {
     }
     /// The units on the roster (not lost), with their indices.
     pub fn roster(&self) -> impl Iterator<Item = (UnitIdx, &Unit)> + '_ {
-        self.units.iter().enumerate().filter(|(_, u)| !u.is_lost())
+        self.units
+            .iter()
+            .enumerate()
+            .filter(|(_, u)| !u.is_lost())
+            .map(|(i, u)| (UnitIdx::new(i), u))
     }
     pub fn task_idx(&self, id: &str) -> Option<TaskIdx> {
-        self.tasks.iter().position(|t| t.id == id)
+        self.tasks.iter().position(|t| t.id == id).map(TaskIdx::new)
     }
     /// Can unit `u` be placed on task `t` at all (status, open task, accepts)?
     /// The rule is [`crate::rules::may_go`]; counts and pins are its siblings.
@@ -332,6 +402,6 @@ impl Incident {
         }
         self.units.push(unit);
         self.placement.0.push(None);
-        self.units.len() - 1
+        UnitIdx::new(self.units.len() - 1)
     }
 }

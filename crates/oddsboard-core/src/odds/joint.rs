@@ -147,7 +147,7 @@ pub fn joint_by_tier(
     placement: &Placement,
     options: JointOptions,
 ) -> JointByTier {
-    let open: Vec<TaskIdx> = (0..incident.tasks.len())
+    let open: Vec<TaskIdx> = crate::model::TaskIdx::range(incident.tasks.len())
         .filter(|&t| incident.tasks[t].is_open())
         .collect();
     let all = joint_odds(incident, placement, &open, options);
@@ -275,7 +275,9 @@ pub fn joint_odds(
     let mut count = vec![0_u32; n];
     for (u, t) in placement.0.iter().enumerate() {
         let Some(t) = *t else { continue };
-        let Some(&i) = slot.get(t) else { continue };
+        let Some(&i) = slot.get(t.index()) else {
+            continue;
+        };
         if i == usize::MAX {
             continue;
         }

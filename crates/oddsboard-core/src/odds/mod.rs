@@ -401,7 +401,7 @@ pub fn tallies(incident: &Incident, placement: &Placement) -> Vec<TaskTally> {
     let mut out = vec![TaskTally::for_incident(incident); incident.tasks.len()];
     for (u, t) in placement.0.iter().enumerate() {
         if let Some(t) = *t {
-            out[t].add(incident, u);
+            out[t].add(incident, crate::model::UnitIdx::new(u));
         }
     }
     out
@@ -448,7 +448,7 @@ pub fn evaluate_task(incident: &Incident, placement: &Placement, t: TaskIdx) -> 
 /// Odds of every task (index = task index; closed tasks included, callers
 /// skip them) for `placement`.
 pub fn evaluate(incident: &Incident, placement: &Placement) -> Vec<TaskOdds> {
-    (0..incident.tasks.len())
+    crate::model::TaskIdx::range(incident.tasks.len())
         .map(|t| evaluate_task(incident, placement, t))
         .collect()
 }

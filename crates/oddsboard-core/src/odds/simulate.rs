@@ -160,7 +160,7 @@ pub fn simulate(
 ) -> Simulation {
     let n_traits = incident.traits.len();
     let n_types = incident.unit_types.len();
-    let open: Vec<TaskIdx> = (0..incident.tasks.len())
+    let open: Vec<TaskIdx> = crate::model::TaskIdx::range(incident.tasks.len())
         .filter(|&t| incident.tasks[t].is_open())
         .collect();
     // Position of each open task in `open`.
@@ -193,7 +193,7 @@ pub fn simulate(
         .enumerate()
         .filter_map(|(u, t)| {
             let t = (*t)?;
-            let s = *slot.get(t)?;
+            let s = *slot.get(t.index())?;
             if s == usize::MAX {
                 return None;
             }

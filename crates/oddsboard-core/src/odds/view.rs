@@ -186,7 +186,7 @@ pub fn task_view(incident: &Incident, odds: &TaskOdds) -> TaskView {
 
 /// Views of every open task for `placement`, in board order.
 pub fn task_views(incident: &Incident, placement: &Placement) -> Vec<TaskView> {
-    (0..incident.tasks.len())
+    crate::model::TaskIdx::range(incident.tasks.len())
         .filter(|&t| incident.tasks[t].is_open())
         .map(|t| task_view(incident, &evaluate_task(incident, placement, t)))
         .collect()

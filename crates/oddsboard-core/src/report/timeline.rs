@@ -101,6 +101,7 @@ pub fn worst_by_tier(
     let mut worst: TierWorst = [None; 3];
     let mut all: Option<f64> = None;
     for (t, task) in state.tasks.iter().enumerate() {
+        let t = crate::model::TaskIdx::new(t);
         if !task.is_open() {
             continue;
         }
@@ -118,7 +119,7 @@ impl TimelineWalker {
         let replay = Replay::start(first)?;
         let state = &replay.state;
         let tallies = tallies(state, &state.placement);
-        let odds = (0..state.tasks.len())
+        let odds = crate::model::TaskIdx::range(state.tasks.len())
             .map(|t| task_odds(state, &tallies[t], t))
             .collect();
         let joint = joint_of(state);
@@ -210,7 +211,7 @@ impl TimelineWalker {
         }
         match &r.event {
             Event::TaskAdded { .. } => {
-                let t = state.tasks.len() - 1;
+                let t = TaskIdx::new(state.tasks.len() - 1);
                 self.tallies.push(TaskTally::for_incident(state));
                 self.odds.push(task_odds(state, &self.tallies[t], t));
                 dirty.push(t);

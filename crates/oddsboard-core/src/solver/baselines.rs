@@ -53,10 +53,10 @@ fn coverage_plan(incident: &Incident, lambda: f64) -> Placement {
     let inc = incident;
     let mut place = ctx.repair(&Placement::all_reserve(inc.units.len()));
     let mut tallies = crate::odds::tallies(inc, &place);
-    let open: Vec<TaskIdx> = (0..inc.tasks.len())
+    let open: Vec<TaskIdx> = crate::model::TaskIdx::range(inc.tasks.len())
         .filter(|&t| inc.tasks[t].is_open())
         .collect();
-    let mut score: Vec<f64> = (0..inc.tasks.len())
+    let mut score: Vec<f64> = crate::model::TaskIdx::range(inc.tasks.len())
         .map(|t| coverage(inc, t, &tallies[t], lambda))
         .collect();
     let mut reserve = ctx
@@ -107,7 +107,7 @@ fn coverage_plan(incident: &Incident, lambda: f64) -> Placement {
     }
     // Improvement: move one unit from a task to the worst task while that
     // raises the minimum (bounded number of passes).
-    for _ in 0..inc.units.len() {
+    for _ in crate::model::UnitIdx::range(inc.units.len()) {
         let Some(&worst) = open.iter().min_by(|&&a, &&b| {
             score[a]
                 .partial_cmp(&score[b])

@@ -90,7 +90,8 @@ pub fn ratio_orders(incident: &Incident) -> Vec<Vec<UnitIdx>> {
                     f64::INFINITY
                 }
             };
-            let mut order: Vec<UnitIdx> = (0..incident.units.len()).collect();
+            let mut order: Vec<UnitIdx> =
+                crate::model::UnitIdx::range(incident.units.len()).collect();
             order.sort_by(|&a, &b| {
                 key(b)
                     .partial_cmp(&key(a))

@@ -76,7 +76,7 @@ struct Search<'c, 'a> {
 }
 
 fn option_index(o: Option<TaskIdx>) -> usize {
-    o.map_or(0, |t| t + 1)
+    o.map_or(0, |t| t.index() + 1)
 }
 
 impl Search<'_, '_> {
@@ -87,7 +87,7 @@ impl Search<'_, '_> {
 
     fn bound_prunes(&mut self, state: &State, cost: Disruption) -> bool {
         let inc = self.ctx.inc;
-        for t in 0..inc.tasks.len() {
+        for t in crate::model::TaskIdx::range(inc.tasks.len()) {
             if !counts(inc, t) {
                 self.ub[t] = 0.0;
                 continue;
@@ -253,7 +253,7 @@ pub fn branch_and_bound(
     // Start: pinned units on their tasks, everything else in reserve.
     let mut start = Placement::all_reserve(n);
     for (u, t) in ctx.pinned.iter().enumerate() {
-        start.set(u, *t);
+        start.set(UnitIdx::new(u), *t);
     }
     let mut state = State::new(ctx, &start);
 
@@ -262,6 +262,7 @@ pub fn branch_and_bound(
     let n_traits = inc.traits.len();
     let mut total_need = vec![0.0f64; n_traits];
     for (t, task) in inc.tasks.iter().enumerate() {
+        let t = crate::model::TaskIdx::new(t);
         if counts(inc, t) {
             for (k, need) in task.needs.iter().enumerate() {
                 total_need[k] += need.need.max(need.sd);
@@ -344,7 +345,7 @@ pub fn branch_and_bound(
     let base_cost = match &goal {
         Goal::LeastDisruption { ground } => (0..n)
             .filter(|u| !free[*u])
-            .map(|u| unit_disruption(inc, ground[u], start.get(u)))
+            .map(|u| unit_disruption(inc, ground[u], start.get(UnitIdx::new(u))))
             .fold(Disruption::default(), |a, b| a + b),
         Goal::Key => Disruption::default(),
     };
@@ -381,7 +382,7 @@ pub fn worst_odds_upper_bound(ctx: &Ctx) -> f64 {
     let n = inc.units.len();
     let mut start = Placement::all_reserve(n);
     for (u, t) in ctx.pinned.iter().enumerate() {
-        start.set(u, *t);
+        start.set(UnitIdx::new(u), *t);
     }
     let state = State::new(ctx, &start);
     let ratio = ratio_orders(inc);
@@ -391,7 +392,7 @@ pub fn worst_odds_upper_bound(ctx: &Ctx) -> f64 {
     }
     let mut buf = Vec::new();
     let mut worst: f64 = 0.0;
-    for t in 0..inc.tasks.len() {
+    for t in crate::model::TaskIdx::range(inc.tasks.len()) {
         if !counts(inc, t) {
             continue;
         }

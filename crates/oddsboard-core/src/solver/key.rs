@@ -94,6 +94,7 @@ impl ObjectiveKey {
         let mut all = Vec::new();
         let mut worst = [None::<f64>; 3];
         for (t, task) in incident.tasks.iter().enumerate() {
+            let t = crate::model::TaskIdx::new(t);
             if !counts(incident, t) {
                 continue;
             }
@@ -390,7 +391,7 @@ tasks:
             let delta = compare_change(
                 &inc,
                 &[TaskChange {
-                    task: t,
+                    task: crate::model::TaskIdx::new(t),
                     before: base[t],
                     after,
                 }],

@@ -29,6 +29,11 @@
 //!    scratch the best key. Exactly by branch and bound when every search
 //!    before finished, heuristically otherwise.
 //!
+//! Indices: plans, pins and moves use the typed [`UnitIdx`] / [`TaskIdx`];
+//! dense inner tables (the exact search's option numbers, the joint odds'
+//! slots) keep plain `usize` positions and convert at their edge with
+//! `.index()` / `UnitIdx::new(i)`.
+//!
 //! Invariant: the solver never reads the clock except through its budget,
 //! draws random numbers only from generators seeded from the options, and
 //! does no I/O.
@@ -202,7 +207,7 @@ impl<'a> Budget<'a> {
 /// Every unit whose place differs, in roster order.
 pub fn moves_between(before: &Placement, after: &Placement) -> Vec<Move> {
     let n = before.len().max(after.len());
-    (0..n)
+    UnitIdx::range(n)
         .filter_map(|u| {
             let (from, to) = (before.get(u), after.get(u));
             (from != to).then_some(Move { unit: u, from, to })
@@ -215,13 +220,13 @@ pub fn moves_between(before: &Placement, after: &Placement) -> Vec<Move> {
 /// units for the reserve.
 pub fn check_feasible(incident: &Incident) -> Result<(), SolveError> {
     for (&u, &t) in &incident.pins {
-        if u >= incident.units.len() {
+        if u.index() >= incident.units.len() {
             return Err(infeasible(
                 format!("pins[{u}]"),
                 "pins a unit that is not on the roster".into(),
             ));
         }
-        if t >= incident.tasks.len() {
+        if t.index() >= incident.tasks.len() {
             return Err(infeasible(
                 format!("pins.{}", incident.units[u].id),
                 "pinned to a task that does not exist".into(),

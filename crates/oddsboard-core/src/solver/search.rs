@@ -63,7 +63,7 @@ impl<'a> Ctx<'a> {
         let mut movable = Vec::new();
         let mut groups: std::collections::HashMap<Vec<u64>, usize> = Default::default();
         let mut group = Vec::with_capacity(inc.units.len());
-        for u in 0..inc.units.len() {
+        for u in crate::model::UnitIdx::range(inc.units.len()) {
             let unit = &inc.units[u];
             let mut sig = vec![unit.type_idx as u64, u64::from(pinned[u].is_some())];
             for r in &unit.ratings {
@@ -73,9 +73,11 @@ impl<'a> Ctx<'a> {
             let next = groups.len();
             group.push(*groups.entry(sig).or_insert(next));
         }
-        for u in 0..inc.units.len() {
-            let row: Vec<bool> = (0..n_tasks).map(|t| rules::can_go(inc, u, t)).collect();
-            allowed.push((0..n_tasks).filter(|&t| row[t]).collect());
+        for u in crate::model::UnitIdx::range(inc.units.len()) {
+            let row: Vec<bool> = TaskIdx::range(n_tasks)
+                .map(|t| rules::can_go(inc, u, t))
+                .collect();
+            allowed.push(TaskIdx::range(n_tasks).filter(|&t| row[t]).collect());
             allowed_on.push(row);
             if rules::counts_in_reserve(&inc.units[u]) && pinned[u].is_none() {
                 movable.push(u);
@@ -159,12 +161,12 @@ impl<'a> Ctx<'a> {
     /// (last units first), reserve refilled (last placed units first).
     pub fn repair(&self, start: &Placement) -> Placement {
         let n = self.inc.units.len();
-        let mut p: Vec<Option<TaskIdx>> = (0..n).map(|u| start.get(u)).collect();
+        let mut p: Vec<Option<TaskIdx>> = UnitIdx::range(n).map(|u| start.get(u)).collect();
         for u in 0..n {
             if let Some(t) = self.pinned[u] {
                 p[u] = Some(t);
             } else if let Some(t) = p[u]
-                && (t >= self.inc.tasks.len() || !self.allowed_on[u][t])
+                && (t.index() >= self.inc.tasks.len() || !self.allowed_on[u][t])
             {
                 p[u] = None;
             }
@@ -292,7 +294,9 @@ impl State {
     /// tier's cap by tier, then the rest by ln odds.
     pub fn bottlenecks(&self, ctx: &Ctx) -> Vec<TaskIdx> {
         let inc = ctx.inc;
-        let mut v: Vec<TaskIdx> = (0..inc.tasks.len()).filter(|&t| counts(inc, t)).collect();
+        let mut v: Vec<TaskIdx> = crate::model::TaskIdx::range(inc.tasks.len())
+            .filter(|&t| counts(inc, t))
+            .collect();
         let rank = |t: TaskIdx| {
             let tier = inc.tasks[t].tier;
             if cmp_ln(self.ln[t], ctx.caps[tier.index()]) == Ordering::Less {
@@ -344,7 +348,7 @@ fn cmp_candidates(ctx: &Ctx, state: &State, a: &Scored, b: &Scored) -> Ordering 
         return with(a).compare(&with(b));
     }
     let mut ch: [TaskChange; 4] = [TaskChange {
-        task: 0,
+        task: TaskIdx::new(0),
         before: 0.0,
         after: 0.0,
     }; 4];
@@ -445,12 +449,12 @@ pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<S
     let mut seen = vec![false; ctx.n_groups];
     let order = state.bottlenecks(ctx);
     let zero = TaskChange {
-        task: 0,
+        task: TaskIdx::new(0),
         before: 0.0,
         after: 0.0,
     };
     let current = Scored {
-        step: Step::Move(0, None),
+        step: Step::Move(UnitIdx::new(0), None),
         changes: [zero; 2],
         n: 0,
     };

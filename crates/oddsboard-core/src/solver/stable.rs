@@ -26,7 +26,7 @@ use super::Budget;
 use super::exact::{self, Goal, Incumbent};
 use super::key::{ObjectiveKey, counts, reaches};
 use super::search::{Ctx, SearchLimits, State, apply_step, local_search};
-use crate::model::{Incident, Placement, TaskIdx};
+use crate::model::{Incident, Placement, TaskIdx, UnitIdx};
 use std::ops::Add;
 
 /// What a plan disturbs on the ground. Ordered as the rule ranks it:
@@ -56,7 +56,7 @@ pub fn unit_disruption(inc: &Incident, ground: Option<TaskIdx>, to: Option<TaskI
         return Disruption::default();
     }
     match ground {
-        Some(g) if g < inc.tasks.len() && counts(inc, g) => Disruption {
+        Some(g) if g.index() < inc.tasks.len() && counts(inc, g) => Disruption {
             withdrawals: 1,
             dispatches: 0,
         },
@@ -69,7 +69,7 @@ pub fn unit_disruption(inc: &Incident, ground: Option<TaskIdx>, to: Option<TaskI
 
 /// What `plan` disturbs compared with `ground`.
 pub fn disruption(inc: &Incident, ground: &Placement, plan: &Placement) -> Disruption {
-    (0..inc.units.len())
+    crate::model::UnitIdx::range(inc.units.len())
         .map(|u| unit_disruption(inc, ground.get(u), plan.get(u)))
         .fold(Disruption::default(), |a, b| a + b)
 }
@@ -155,7 +155,7 @@ pub fn prune_toward_ground(ctx: &Ctx, state: &mut State, ground: &[Option<TaskId
 /// Returns whether a pair went back.
 fn prune_pairs(ctx: &Ctx, state: &mut State, ground: &[Option<TaskIdx>], thr: &[f64]) -> bool {
     let inc = ctx.inc;
-    let moved: Vec<usize> = ctx
+    let moved: Vec<UnitIdx> = ctx
         .movable
         .iter()
         .copied()
@@ -253,7 +253,7 @@ fn walk_toward(ctx: &Ctx, ground: &Placement, leader: &State, thr: &[f64]) -> Op
         if meets(ctx, &s, thr) {
             return Some(s);
         }
-        let mut best: Option<(usize, ObjectiveKey)> = None;
+        let mut best: Option<(UnitIdx, ObjectiveKey)> = None;
         for &u in &ctx.movable {
             let (from, to) = (s.place[u], leader.place[u]);
             if from == to
@@ -442,7 +442,9 @@ pub fn stable_replan(
         }
     }
 
-    let g: Vec<Option<TaskIdx>> = (0..inc.units.len()).map(|u| ground.get(u)).collect();
+    let g: Vec<Option<TaskIdx>> = crate::model::UnitIdx::range(inc.units.len())
+        .map(|u| ground.get(u))
+        .collect();
     // From scratch, a proven best key that is acceptable is the answer.
     let best_ok = settings.from_scratch && proven && meets(ctx, &best, &thr);
     let mut chosen = if best_ok {
