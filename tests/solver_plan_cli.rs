@@ -207,27 +207,7 @@ fn plans_the_state_at_the_end_of_a_log() {
 /// Invented: a flooded-cellar rescue nobody on scene can help, a care home
 /// and a terrace evacuated by boats, a swift-water team and a sandbag crew
 /// idle in reserve, a bund short of sandbags.
-const CELLAR: &str = r#"
-incident: { name: Invented - Ferry Lane flash flood }
-traits: [ { id: evac, unit: persons/h }, { id: dive, unit: divers }, { id: bags, unit: bags/h } ]
-unit_types:
-  - { id: boat, traits: { evac: { mean: 30, sd: 6 } } }
-  - { id: swiftwater, traits: { evac: { mean: 14, sd: 4 } } }
-  - { id: sandbag, traits: { bags: { mean: 400, sd: 80 } } }
-units:
-  - { id: BT1, type: boat }
-  - { id: BT2, type: boat }
-  - { id: BT3, type: boat }
-  - { id: SW1, type: swiftwater }
-  - { id: SB1, type: sandbag }
-  - { id: SB2, type: sandbag }
-tasks:
-  - { id: cellar-rescue, tier: life, needs: { dive: 2 } }
-  - { id: care-home, tier: life, needs: { evac: 54 } }
-  - { id: terrace, tier: life, needs: { evac: 32 } }
-  - { id: bund, tier: stabilization, needs: { bags: 700 } }
-placement: { BT1: care-home, BT2: care-home, BT3: terrace, SB1: bund }
-"#;
+const CELLAR: &str = include_str!("fixtures/ferry-lane-flood.yaml");
 
 fn plan_json(text: &str, extra: &[&str]) -> serde_json::Value {
     let f = file(text);
@@ -303,6 +283,7 @@ fn a_ground_already_acceptable_is_within_slack_and_kept() {
         "placement: { BT1: care-home, BT2: care-home, BT3: terrace, SB1: bund }",
         "placement: { BT1: care-home, BT2: care-home, BT3: terrace, SW1: terrace, SB1: bund, SB2: bund }",
     );
+    assert_ne!(text, CELLAR, "the scenario's placement line changed");
     let v = plan_json(&text, &["--budget-ms", "20000", "--compare"]);
     assert_eq!(v["moves"].as_array().expect("moves").len(), 0);
     let rows = v["compare"].as_array().expect("rows");

@@ -198,30 +198,7 @@ fn a_life_search_is_not_given_up_for_a_facade() {
 /// 0 whatever is done); a care home is evacuated at about 75 %, a terrace
 /// at under 40 % by one boat; a swift-water team waits in reserve beside a
 /// sandbag crew, and a bund (stabilization) is short of sandbags.
-const CELLAR: &str = r#"
-incident: { name: Invented - Ferry Lane flash flood (cellar and terrace) }
-traits:
-  - { id: evac, unit: persons/h }
-  - { id: dive, unit: divers }
-  - { id: bags, unit: bags/h }
-unit_types:
-  - { id: boat, traits: { evac: { mean: 30, sd: 6 } } }
-  - { id: swiftwater, traits: { evac: { mean: 14, sd: 4 } } }
-  - { id: sandbag, traits: { bags: { mean: 400, sd: 80 } } }
-units:
-  - { id: BT1, type: boat }
-  - { id: BT2, type: boat }
-  - { id: BT3, type: boat }
-  - { id: SW1, type: swiftwater }
-  - { id: SB1, type: sandbag }
-  - { id: SB2, type: sandbag }
-tasks:
-  - { id: cellar-rescue, tier: life, needs: { dive: 2 } }
-  - { id: care-home, tier: life, needs: { evac: 54 } }
-  - { id: terrace, tier: life, needs: { evac: 32 } }
-  - { id: bund, tier: stabilization, needs: { bags: 700 } }
-placement: { BT1: care-home, BT2: care-home, BT3: terrace, SB1: bund }
-"#;
+const CELLAR: &str = include_str!("fixtures/ferry-lane-flood.yaml");
 
 #[test]
 fn the_idle_swiftwater_team_goes_to_the_terrace() {

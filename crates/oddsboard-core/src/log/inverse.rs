@@ -5,7 +5,7 @@
 use super::apply::apply;
 use super::event::{Event, Move, StatusValue};
 use crate::model::file::{RatingFile, UnitFile};
-use crate::model::{Incident, UnitStatus};
+use crate::model::{Incident, UnitIdx, UnitStatus};
 
 /// Why an event has no inverse.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -76,18 +76,7 @@ pub fn inverse(inc: &Incident, event: &Event) -> Result<Vec<Event>, InverseError
                     status: StatusValue::OutOfService,
                 });
             }
-            if let Some(t) = inc.placement.get(u) {
-                out.push(Event::Moved {
-                    unit: unit.clone(),
-                    to: Some(inc.tasks[t].id.clone()),
-                });
-            }
-            if let Some(&t) = inc.pins.get(&u) {
-                out.push(Event::Pinned {
-                    unit: unit.clone(),
-                    task: inc.tasks[t].id.clone(),
-                });
-            }
+            restore_place(inc, u, unit, &mut out);
             Ok(out)
         }
         Event::UnitAdded { unit } => Ok(vec![Event::UnitLost {
@@ -157,18 +146,7 @@ pub fn inverse(inc: &Incident, event: &Event) -> Result<Vec<Event>, InverseError
                 unit: unit.clone(),
                 status,
             }];
-            if let Some(t) = inc.placement.get(u) {
-                out.push(Event::Moved {
-                    unit: unit.clone(),
-                    to: Some(inc.tasks[t].id.clone()),
-                });
-            }
-            if let Some(&t) = inc.pins.get(&u) {
-                out.push(Event::Pinned {
-                    unit: unit.clone(),
-                    task: inc.tasks[t].id.clone(),
-                });
-            }
+            restore_place(inc, u, unit, &mut out);
             Ok(out)
         }
         Event::TaskAdded { task } => Err(InverseError::NotUndoable(format!(
@@ -178,6 +156,24 @@ pub fn inverse(inc: &Incident, event: &Event) -> Result<Vec<Event>, InverseError
         Event::PlanProposed { .. } | Event::PlanRejected {} | Event::IncidentOpened { .. } => Err(
             InverseError::NotUndoable("a proposal or a rejection changes nothing to undo".into()),
         ),
+    }
+}
+
+/// The events that put unit `u` back where `inc` has it: on its task (if
+/// any) and pinned (if it was). Undoing a loss or a status change both end
+/// with these.
+fn restore_place(inc: &Incident, u: UnitIdx, unit: &str, out: &mut Vec<Event>) {
+    if let Some(t) = inc.placement.get(u) {
+        out.push(Event::Moved {
+            unit: unit.to_string(),
+            to: Some(inc.tasks[t].id.clone()),
+        });
+    }
+    if let Some(&t) = inc.pins.get(&u) {
+        out.push(Event::Pinned {
+            unit: unit.to_string(),
+            task: inc.tasks[t].id.clone(),
+        });
     }
 }
 

@@ -984,42 +984,50 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
         incident.tasks.push(task);
     }
 
-    for (uid, tid) in &f.placement {
-        let path = format!("placement.{uid}");
+    // A (unit, task) pair of `placement` or `pins` by id: unknown ids are
+    // reported; pairs whose unit or task already failed are skipped quietly.
+    let resolve = |sink: &mut Sink, section: &str, uid: &str, tid: Option<&str>| {
         let Some(u) = incident.unit_idx(uid) else {
-            sink.error_at_key("placement", uid, format!("unknown unit `{uid}`"));
-            continue;
+            sink.error_at_key(section, uid, format!("unknown unit `{uid}`"));
+            return None;
         };
-        let Some(tid) = tid else { continue };
+        let tid = tid?;
         let Some(t) = incident.task_idx(tid) else {
-            sink.error(&path, format!("unknown task `{tid}`"));
-            continue;
+            sink.error(format!("{section}.{uid}"), format!("unknown task `{tid}`"));
+            return None;
         };
-        if broken_units[u] || broken_tasks[t] {
-            continue;
-        }
+        (!broken_units[u] && !broken_tasks[t]).then_some((u, t))
+    };
+    // Both sections are resolved before the incident changes (the closure
+    // reads it).
+    let placed: Vec<_> = (f.placement.iter())
+        .filter_map(|(uid, tid)| {
+            let tid = tid.as_deref();
+            resolve(sink, "placement", uid, tid).map(|(u, t)| (uid, tid.unwrap_or_default(), u, t))
+        })
+        .collect();
+    let pinned: Vec<_> = (f.pins.iter())
+        .filter_map(|(uid, tid)| {
+            resolve(sink, "pins", uid, Some(tid)).map(|(u, t)| (uid, tid, u, t))
+        })
+        .collect();
+    for (uid, tid, u, t) in placed {
         match placement_problem(&incident, u, t) {
-            Some(why) => sink.error(&path, format!("`{uid}` cannot be on `{tid}`: {why}")),
+            Some(why) => sink.error(
+                format!("placement.{uid}"),
+                format!("`{uid}` cannot be on `{tid}`: {why}"),
+            ),
             None => incident.placement.set(u, Some(t)),
         }
     }
-    for (uid, tid) in &f.pins {
-        let path = format!("pins.{uid}");
-        let Some(u) = incident.unit_idx(uid) else {
-            sink.error_at_key("pins", uid, format!("unknown unit `{uid}`"));
-            continue;
-        };
-        let Some(t) = incident.task_idx(tid) else {
-            sink.error(&path, format!("unknown task `{tid}`"));
-            continue;
-        };
-        if broken_units[u] || broken_tasks[t] {
-            continue;
-        }
+    for (uid, tid, u, t) in pinned {
         // A pin binds the plan, not the ground: a unit pinned to one task may
         // stand on another now; the plan will move it.
         match placement_problem(&incident, u, t) {
-            Some(why) => sink.error(&path, format!("`{uid}` cannot be pinned to `{tid}`: {why}")),
+            Some(why) => sink.error(
+                format!("pins.{uid}"),
+                format!("`{uid}` cannot be pinned to `{tid}`: {why}"),
+            ),
             None => {
                 incident.pins.insert(u, t);
             }
