@@ -178,3 +178,175 @@ proptest! {
         }
     }
 }
+
+// ---------------------------------------------------------------------------
+// One pass over the text: the index's own value against serde_yaml 0.9's.
+// serde_yaml (crates.io) is the reference: before the loader read values and
+// places in one pass, it read the values with serde_yaml, so every scalar
+// must resolve as it did there.
+
+fn both_values(text: &str) -> (Option<serde_yaml::Value>, Option<serde_yaml::Value>) {
+    let ours = oddsboard::model::locate::Locator::new(text).take_value();
+    let reference = serde_yaml::from_str::<serde_yaml::Value>(text).ok();
+    (ours, reference)
+}
+
+/// NaN is never equal to itself; compare through a spelling of the tree.
+fn spelled(v: &Option<serde_yaml::Value>) -> String {
+    format!("{v:?}")
+}
+
+#[test]
+fn scalars_resolve_as_serde_yaml_resolves_them() {
+    let scalars = [
+        "",
+        "~",
+        "null",
+        "Null",
+        "NULL",
+        "nul",
+        "true",
+        "True",
+        "TRUE",
+        "tRUE",
+        "false",
+        "no",
+        "yes",
+        "on",
+        "0",
+        "-0",
+        "+0",
+        "7",
+        "+7",
+        "-7",
+        "007",
+        "-007",
+        "0x1F",
+        "-0x1F",
+        "+0x1F",
+        "0x-1",
+        "0o17",
+        "-0o17",
+        "0b101",
+        "-0b101",
+        "0b",
+        "0x",
+        "1_000",
+        "1e3",
+        "1E3",
+        "-1.5e-3",
+        "+.5",
+        ".5",
+        "5.",
+        ".inf",
+        "-.inf",
+        "+.inf",
+        ".Inf",
+        ".INF",
+        ".nan",
+        ".NaN",
+        "NaN",
+        "nan",
+        "inf",
+        "infinity",
+        "1e400",
+        "-1e400",
+        "18446744073709551615",
+        "-9223372036854775808",
+        "++1",
+        "+-1",
+        "1900",
+        "1900.0",
+        "0.99",
+        "E3",
+        "L/min",
+        "2026-12-04T02:47:00Z",
+        "12:30",
+        "'quoted'",
+        "\"1900\"",
+        "'true'",
+        "|\n  block\n",
+        ">\n  folded 12\n",
+    ];
+    for s in scalars {
+        let text = format!("k: {s}\n");
+        let (ours, reference) = both_values(&text);
+        assert!(reference.is_some(), "serde_yaml reads {text:?}");
+        assert_eq!(spelled(&ours), spelled(&reference), "{text:?}");
+    }
+    // Integers beyond u64/i64 made serde_yaml's Value fail the whole file;
+    // one pass reads them as the (finite) numbers they are, and the checks of
+    // meaning then judge them like any other number.
+    for s in ["18446744073709551616", "-9223372036854775809"] {
+        let text = format!("k: {s}\n");
+        let (ours, reference) = both_values(&text);
+        assert!(reference.is_none(), "{text:?}");
+        let k = ours
+            .as_ref()
+            .and_then(|v| v.get("k"))
+            .and_then(|v| v.as_f64());
+        assert_eq!(k, s.parse::<f64>().ok(), "{text:?}");
+    }
+}
+
+#[test]
+fn collections_anchors_and_duplicates_read_as_serde_yaml_reads_them() {
+    let texts = [
+        "a: [1, 'x', {b: 2.5, c: [null, true]}]\n",
+        "base: &b { mean: 1900, sd: 250 }\nx: *b\ny: [*b, *b]\n",
+        "k: &s 12\nl: *s\n",
+        "- 1\n- - 2\n  - 3\n- {a: b}\n",
+        "? [1, 2]\n: complex key\n",
+        "",
+        "# only a comment\n",
+        "empty:\n",
+    ];
+    for text in texts {
+        let (ours, reference) = both_values(text);
+        assert!(reference.is_some(), "serde_yaml reads {text:?}");
+        assert_eq!(spelled(&ours), spelled(&reference), "{text:?}");
+    }
+    // Duplicate keys: serde_yaml's Value refuses them; the index reports each
+    // with its place and the value keeps the last, as a serde map fills.
+    let l = oddsboard::model::locate::Locator::new("a: 1\na: 2\n");
+    assert_eq!(l.problems().len(), 1);
+    let mut l = l;
+    assert_eq!(
+        l.take_value(),
+        serde_yaml::from_str::<serde_yaml::Value>("a: 2\n").ok()
+    );
+}
+
+#[test]
+fn a_second_document_and_tags_are_refused_with_their_place() {
+    let e = errors("incident: { name: x }\n---\nincident: { name: y }\n");
+    assert!(
+        e.iter()
+            .any(|d| d.contains(":2:") && d.contains("second YAML document")),
+        "{e:?}"
+    );
+    let e = errors("incident:\n  name: !!binary aGVsbG8=\n");
+    assert!(
+        e.iter()
+            .any(|d| d.contains(":2:") && d.contains("`!!binary`")),
+        "{e:?}"
+    );
+    // A core-schema tag that says what the text is anyway is accepted.
+    let ours = oddsboard::model::locate::Locator::new("a: !!str 12\nb: !!float 3\n").take_value();
+    assert_eq!(
+        ours,
+        serde_yaml::from_str::<serde_yaml::Value>("a: '12'\nb: 3.0\n").ok()
+    );
+}
+
+proptest! {
+    /// Number-like and word-like plain scalars: the same value as serde_yaml.
+    #[test]
+    fn any_plain_scalar_resolves_as_serde_yaml(s in "[-+]?(0[xob])?[0-9a-fA-F._eE]{0,12}|[a-zA-Z~.]{1,6}") {
+        let text = format!("k: {s}\n");
+        let (ours, reference) = both_values(&text);
+        if reference.is_some() {
+            prop_assert_eq!(spelled(&ours), spelled(&reference), "{:?}", text);
+        }
+    }
+}

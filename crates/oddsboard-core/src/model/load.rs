@@ -92,27 +92,32 @@ pub fn load_incident_file(path: &Path) -> Result<Incident, LoadError> {
 /// element that does not even read is left out of the later checks, so one
 /// mistake does not echo as many.
 pub fn parse_incident_str(text: &str, file: &str) -> Result<Incident, LoadError> {
-    let locator = Locator::new(text);
+    // One pass over the text gives both the values and their places.
+    let mut locator = Locator::new(text);
     if locator.refused() {
         return Err(LoadError::Invalid(locator.structural_problems(file)));
     }
+    let root = locator.take_value();
     let mut sink = Sink::new(file, &locator);
     let mut reported = locator.structural_problems(file);
-    let incident = match serde_yaml::from_str::<LenientValue>(text) {
-        Ok(root) => {
-            let mut unread = Unread::default();
-            let parsed = read_sections(&root.0, &mut sink, &mut unread);
-            reported.append(&mut sink.out);
-            let incident = parsed.map(|parsed| convert(&parsed, &mut sink));
-            // Problems under an element that did not read are echoes of it.
-            sink.out.retain(|d| !unread.covers(&d.path));
-            incident
-        }
-        Err(e) => {
-            reported.push(yaml_error(file, &e));
-            None
-        }
-    };
+    if let Some(((line, column), info)) = locator.syntax_error() {
+        reported.push(Diagnostic {
+            file: file.to_string(),
+            line: Some(*line),
+            column: Some(*column),
+            path: String::new(),
+            message: format!("YAML syntax: {info}"),
+        });
+    }
+    let incident = root.and_then(|root| {
+        let mut unread = Unread::default();
+        let parsed = read_sections(&root, &mut sink, &mut unread);
+        reported.append(&mut sink.out);
+        let incident = parsed.map(|parsed| convert(&parsed, &mut sink));
+        // Problems under an element that did not read are echoes of it.
+        sink.out.retain(|d| !unread.covers(&d.path));
+        incident
+    });
     sink.out.append(&mut reported);
     // Whatever the index could not place belongs to the document as a whole.
     for d in &mut sink.out {
@@ -139,112 +144,6 @@ pub fn validate_file(f: &IncidentFile, file: &str) -> Result<Incident, LoadError
         Ok(incident)
     } else {
         Err(LoadError::Invalid(sink.finish()))
-    }
-}
-
-/// A serde_yaml error on the whole text (syntax, limits) as a diagnostic.
-fn yaml_error(file: &str, e: &serde_yaml::Error) -> Diagnostic {
-    let location = e.location();
-    let mut message = e.to_string();
-    let mut path = String::new();
-    if let Some(l) = &location {
-        // The location is printed in front; drop its repetition.
-        message = message.replacen(
-            &format!(" at line {} column {}", l.line(), l.column()),
-            "",
-            1,
-        );
-    }
-    if message.contains("repetition limit exceeded") {
-        message = "YAML aliases repeat too often for a file this size (an alias bomb?): \
-                   refused; write the values out or use fewer aliases"
-            .to_string();
-    } else if message.contains("recursion limit exceeded") {
-        message = "nesting too deep (recursion limit exceeded): refused (not an incident file?)"
-            .to_string();
-    } else if let Some(i) = message.find("YAML tags (") {
-        // serde_yaml puts the field path in front of a visitor's message.
-        path = message[..i].trim_end_matches(": ").to_string();
-        message = message[i..].to_string();
-    } else {
-        message = format!("YAML syntax: {message}");
-    }
-    Diagnostic {
-        file: file.to_string(),
-        line: location.as_ref().map(|l| l.line()),
-        column: location.as_ref().map(|l| l.column()),
-        path,
-        message,
-    }
-}
-
-/// A YAML value read keeping the last of duplicate keys (as serde does when
-/// it fills a map) instead of failing on the first: the [`Locator`] already
-/// reports every duplicate with its place, and reading on finds the other
-/// problems of the file.
-struct LenientValue(serde_yaml::Value);
-
-impl<'de> serde::Deserialize<'de> for LenientValue {
-    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        use serde::de::{self, Visitor};
-        use serde_yaml::{Mapping, Number, Value};
-        struct V;
-        impl<'de> Visitor<'de> for V {
-            type Value = LenientValue;
-            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
-                f.write_str("any YAML value")
-            }
-            fn visit_bool<E: de::Error>(self, v: bool) -> Result<LenientValue, E> {
-                Ok(LenientValue(Value::Bool(v)))
-            }
-            fn visit_i64<E: de::Error>(self, v: i64) -> Result<LenientValue, E> {
-                Ok(LenientValue(Value::Number(Number::from(v))))
-            }
-            fn visit_u64<E: de::Error>(self, v: u64) -> Result<LenientValue, E> {
-                Ok(LenientValue(Value::Number(Number::from(v))))
-            }
-            fn visit_f64<E: de::Error>(self, v: f64) -> Result<LenientValue, E> {
-                Ok(LenientValue(Value::Number(Number::from(v))))
-            }
-            fn visit_str<E: de::Error>(self, v: &str) -> Result<LenientValue, E> {
-                Ok(LenientValue(Value::String(v.to_string())))
-            }
-            fn visit_string<E: de::Error>(self, v: String) -> Result<LenientValue, E> {
-                Ok(LenientValue(Value::String(v)))
-            }
-            fn visit_unit<E: de::Error>(self) -> Result<LenientValue, E> {
-                Ok(LenientValue(Value::Null))
-            }
-            fn visit_none<E: de::Error>(self) -> Result<LenientValue, E> {
-                Ok(LenientValue(Value::Null))
-            }
-            fn visit_some<D2: serde::Deserializer<'de>>(
-                self,
-                d: D2,
-            ) -> Result<LenientValue, D2::Error> {
-                <LenientValue as serde::Deserialize>::deserialize(d)
-            }
-            fn visit_seq<A: de::SeqAccess<'de>>(self, mut a: A) -> Result<LenientValue, A::Error> {
-                let mut items = Vec::new();
-                while let Some(LenientValue(v)) = a.next_element()? {
-                    items.push(v);
-                }
-                Ok(LenientValue(Value::Sequence(items)))
-            }
-            fn visit_map<A: de::MapAccess<'de>>(self, mut a: A) -> Result<LenientValue, A::Error> {
-                let mut map = Mapping::new();
-                while let Some((LenientValue(k), LenientValue(v))) = a.next_entry()? {
-                    map.insert(k, v);
-                }
-                Ok(LenientValue(Value::Mapping(map)))
-            }
-            fn visit_enum<A: de::EnumAccess<'de>>(self, _: A) -> Result<LenientValue, A::Error> {
-                Err(de::Error::custom(
-                    "YAML tags (`!name`) are not used in incident files",
-                ))
-            }
-        }
-        d.deserialize_any(V)
     }
 }
 

@@ -4,19 +4,33 @@
 //! absurd nesting.
 //!
 //! The index is built from yaml-rust2's event parser, whose events carry
-//! markers. The walk never expands an alias: it only adds up how many nodes
-//! each anchor would expand to, so a "billion laughs" document is measured in
-//! time and memory linear in its text and refused before anything expands it.
+//! markers. The same walk builds the document's value (a `serde_yaml::Value`
+//! the loader deserializes section by section), so a file is parsed once for
+//! both values and places. The walk adds up how many nodes each anchor
+//! expands to before it copies one, so a "billion laughs" document is refused
+//! in time and memory linear in its text.
+//!
+//! Plain scalars resolve as serde_yaml 0.9 resolves them (YAML 1.2 core
+//! schema: null, booleans, integers in decimal, 0x, 0o and 0b, floats with
+//! `.inf` and `.nan`, leading-zero digits as text); quoted and block scalars
+//! are text. Tags other than the core schema's are refused: incident files
+//! do not use them.
 
 use super::load::Diagnostic;
+use serde_yaml::{Mapping, Number, Value};
 use std::collections::HashMap;
-use yaml_rust2::parser::{Event, Parser};
-use yaml_rust2::scanner::Marker;
+use yaml_rust2::parser::{Event, Parser, Tag};
+use yaml_rust2::scanner::{Marker, TScalarStyle};
 
 /// Most nodes the document may expand to once aliases are followed, beyond
-/// ten times its written size. A real incident file (a few hundred units)
-/// expands to some thousands of nodes.
-pub const MAX_EXPANDED_NODES: u64 = 100_000;
+/// [`MAX_EXPANSION_RATIO`] times its written size. A real incident file (a few
+/// hundred units, anchors for shared ratings) expands to a few times its
+/// written size.
+pub const MAX_EXPANDED_NODES: u64 = 10_000;
+
+/// How many times its written size a document may expand to, beyond
+/// [`MAX_EXPANDED_NODES`].
+pub const MAX_EXPANSION_RATIO: u64 = 100;
 
 /// Deepest nesting accepted; an incident file needs about six levels.
 pub const MAX_DEPTH: usize = 64;
@@ -44,9 +58,18 @@ pub struct Locator {
     /// Path → position of its key, for entries of a mapping.
     keys: HashMap<String, Position>,
     problems: Vec<StructuralProblem>,
-    /// The event parser's own syntax error, if any (serde_yaml's parser is the
-    /// one whose error is reported; this one only explains a short index).
+    /// The event parser's syntax error, if any.
     syntax_error: Option<(Position, String)>,
+    /// The document's value, when it read to the end without a fatal
+    /// problem, a syntax error or a tag.
+    value: Option<Value>,
+}
+
+/// A collection being built, beside its index [`Frame`].
+enum Build {
+    Sequence(Vec<Value>, usize),
+    /// The mapping so far, the key waiting for its value, the anchor.
+    Mapping(Mapping, Option<Value>, usize),
 }
 
 enum Frame {
@@ -112,9 +135,21 @@ impl Locator {
         me
     }
 
+    /// The document's value, read in the same pass as the index: `None`
+    /// when the text has a syntax error, a fatal structural problem or a
+    /// tag (each reported with its place). An empty document is null.
+    pub fn take_value(&mut self) -> Option<Value> {
+        self.value.take()
+    }
+
     fn walk(&mut self, text: &str) {
         let mut parser = Parser::new_from_str(text);
         let mut stack: Vec<Frame> = Vec::new();
+        let mut builds: Vec<Build> = Vec::new();
+        let mut anchored: HashMap<usize, Value> = HashMap::new();
+        let mut root: Option<Value> = None;
+        // False once something makes the value untrustworthy (a tag).
+        let mut readable = true;
         // Nodes the document expands to so far, aliases followed.
         let mut expanded: u64 = 0;
         let mut written: u64 = 0;
@@ -131,45 +166,77 @@ impl Locator {
             };
             let here = pos(&marker);
             match event {
-                Event::StreamEnd => return,
+                Event::StreamEnd => {
+                    if readable {
+                        self.value = Some(root.unwrap_or(Value::Null));
+                    }
+                    return;
+                }
                 Event::DocumentStart => {
                     documents += 1;
                     if documents > 1 {
-                        // serde_yaml refuses a second document; nothing to index.
+                        self.problems.push(StructuralProblem {
+                            path: String::new(),
+                            position: here,
+                            message: "a second YAML document (`---`) starts here: an incident \
+                                      file is one document"
+                                .to_string(),
+                            fatal: true,
+                        });
                         return;
                     }
                 }
                 Event::Nothing | Event::StreamStart | Event::DocumentEnd => {}
-                Event::Scalar(value, _, anchor, _) => {
+                Event::Scalar(text, style, anchor, tag) => {
                     expanded += 1;
                     written += 1;
+                    let value = resolve_scalar(&text, style, tag.as_ref());
+                    let path = self.node(&mut stack, NodeKind::Scalar(text), here);
+                    let value = match value {
+                        Ok(v) => v,
+                        Err(message) => {
+                            self.tag_problem(path, here, message);
+                            readable = false;
+                            Value::Null
+                        }
+                    };
                     if anchor != 0 {
                         anchor_sizes.insert(anchor, 1);
+                        anchored.insert(anchor, value.clone());
                     }
-                    self.node(&mut stack, NodeKind::Scalar(value), here);
+                    place(&mut builds, &mut root, value);
                 }
                 Event::Alias(anchor) => {
                     let size = anchor_sizes.get(&anchor).copied().unwrap_or(1);
                     expanded = expanded.saturating_add(size);
                     written += 1;
                     let path = self.node(&mut stack, NodeKind::Alias, here);
-                    if expanded > MAX_EXPANDED_NODES.saturating_add(written.saturating_mul(10)) {
+                    let limit = MAX_EXPANDED_NODES
+                        .saturating_add(written.saturating_mul(MAX_EXPANSION_RATIO));
+                    if expanded > limit {
                         self.problems.push(StructuralProblem {
                             path,
                             position: here,
                             message: format!(
-                                "YAML aliases here expand the file to more than {MAX_EXPANDED_NODES} \
-                                 values (an alias bomb?): refused; write the values out or use fewer aliases"
+                                "YAML aliases here expand the file to more than {limit} values \
+                                 (an alias bomb?): refused; write the values out or use fewer aliases"
                             ),
                             fatal: true,
                         });
                         return;
                     }
+                    // Within the limit: the copy is bounded by it.
+                    let value = anchored.get(&anchor).cloned().unwrap_or(Value::Null);
+                    place(&mut builds, &mut root, value);
                 }
-                Event::SequenceStart(anchor, _) | Event::MappingStart(anchor, _) => {
+                Event::SequenceStart(anchor, ref tag) | Event::MappingStart(anchor, ref tag) => {
                     expanded += 1;
                     written += 1;
                     let is_map = matches!(event, Event::MappingStart(..));
+                    let tag_message = tag
+                        .as_ref()
+                        .filter(|t| !is_core_tag(t, if is_map { "map" } else { "seq" }))
+                        .map(tag_refusal);
                     if stack.len() >= MAX_DEPTH {
                         self.problems.push(StructuralProblem {
                             path: String::new(),
@@ -188,6 +255,15 @@ impl Locator {
                     };
                     let is_key = matches!(stack.last(), Some(Frame::Mapping { key: None, .. }));
                     let path = self.node(&mut stack, kind, here);
+                    if let Some(message) = tag_message {
+                        self.tag_problem(path.clone(), here, message);
+                        readable = false;
+                    }
+                    builds.push(if is_map {
+                        Build::Mapping(Mapping::new(), None, anchor)
+                    } else {
+                        Build::Sequence(Vec::new(), anchor)
+                    });
                     let expanded_at_start = expanded - 1;
                     stack.push(if is_key {
                         Frame::ComplexKey {
@@ -214,6 +290,16 @@ impl Locator {
                     });
                 }
                 Event::SequenceEnd | Event::MappingEnd => {
+                    if let Some(build) = builds.pop() {
+                        let (value, anchor) = match build {
+                            Build::Sequence(items, anchor) => (Value::Sequence(items), anchor),
+                            Build::Mapping(map, _, anchor) => (Value::Mapping(map), anchor),
+                        };
+                        if anchor != 0 {
+                            anchored.insert(anchor, value.clone());
+                        }
+                        place(&mut builds, &mut root, value);
+                    }
                     let Some(frame) = stack.pop() else { continue };
                     if let Frame::Sequence {
                         path,
@@ -255,6 +341,16 @@ impl Locator {
                 }
             }
         }
+    }
+
+    /// A tag is not part of an incident file: reported at its node.
+    fn tag_problem(&mut self, path: String, position: Position, message: String) {
+        self.problems.push(StructuralProblem {
+            path,
+            position,
+            message,
+            fatal: false,
+        });
     }
 
     /// Records one node (scalar, alias or collection start) at the top of
@@ -389,6 +485,157 @@ impl Locator {
             })
             .collect()
     }
+}
+
+/// Puts a finished value into the collection being built, or makes it the
+/// document's root. A mapping keeps the last of duplicate keys (as serde does
+/// when it fills a map); the index reports every duplicate with its place.
+fn place(builds: &mut [Build], root: &mut Option<Value>, value: Value) {
+    match builds.last_mut() {
+        None => *root = Some(value),
+        Some(Build::Sequence(items, _)) => items.push(value),
+        Some(Build::Mapping(map, key, _)) => match key.take() {
+            None => *key = Some(value),
+            Some(k) => {
+                map.insert(k, value);
+            }
+        },
+    }
+}
+
+const CORE_TAG: &str = "tag:yaml.org,2002:";
+
+fn is_core_tag(tag: &Tag, name: &str) -> bool {
+    tag.handle == CORE_TAG && tag.suffix == name
+}
+
+fn tag_refusal(tag: &Tag) -> String {
+    let shown = if tag.handle == CORE_TAG {
+        format!("!!{}", tag.suffix)
+    } else {
+        format!("{}{}", tag.handle, tag.suffix)
+    };
+    format!("YAML tags (`!name`) are not used in incident files (found `{shown}`)")
+}
+
+/// A scalar's value under the YAML 1.2 core schema, resolved as serde_yaml
+/// 0.9 resolves it, so the move to one pass changed no file's meaning.
+fn resolve_scalar(text: &str, style: TScalarStyle, tag: Option<&Tag>) -> Result<Value, String> {
+    let wrong = |what: &str| format!("`{text}` is not {what}, as its tag says");
+    match tag {
+        None if style == TScalarStyle::Plain => Ok(resolve_plain(text)),
+        None => Ok(Value::String(text.to_string())),
+        Some(t) if t.handle != CORE_TAG => Err(tag_refusal(t)),
+        Some(t) => match t.suffix.as_str() {
+            "str" => Ok(Value::String(text.to_string())),
+            "null" => parse_null(text).ok_or_else(|| wrong("null")),
+            "bool" => parse_bool(text)
+                .map(Value::Bool)
+                .ok_or_else(|| wrong("a boolean")),
+            "int" => parse_int(text).ok_or_else(|| wrong("an integer")),
+            "float" => parse_float(text)
+                .map(|f| Value::Number(Number::from(f)))
+                .ok_or_else(|| wrong("a number")),
+            _ => Err(tag_refusal(t)),
+        },
+    }
+}
+
+fn resolve_plain(text: &str) -> Value {
+    if text.is_empty() {
+        return Value::Null;
+    }
+    if let Some(v) = parse_null(text) {
+        return v;
+    }
+    if let Some(b) = parse_bool(text) {
+        return Value::Bool(b);
+    }
+    if let Some(v) = parse_int(text) {
+        return v;
+    }
+    if !leading_zero_digits(text)
+        && let Some(f) = parse_float(text)
+    {
+        return Value::Number(Number::from(f));
+    }
+    Value::String(text.to_string())
+}
+
+fn parse_null(text: &str) -> Option<Value> {
+    matches!(text, "null" | "Null" | "NULL" | "~").then_some(Value::Null)
+}
+
+fn parse_bool(text: &str) -> Option<bool> {
+    match text {
+        "true" | "True" | "TRUE" => Some(true),
+        "false" | "False" | "FALSE" => Some(false),
+        _ => None,
+    }
+}
+
+/// Digits with a leading zero (`007`) are text in YAML 1.2.
+fn leading_zero_digits(text: &str) -> bool {
+    let t = text.strip_prefix(['-', '+']).unwrap_or(text);
+    t.len() > 1 && t.starts_with('0') && t[1..].bytes().all(|b| b.is_ascii_digit())
+}
+
+/// An integer in decimal, `0x`, `0o` or `0b`, optionally signed; one that
+/// fits neither u64 nor i64 is not an integer (serde_yaml's `Value` cannot
+/// hold it either).
+fn parse_int(text: &str) -> Option<Value> {
+    let (negative, digits) = match text.as_bytes().first() {
+        Some(b'-') => (true, &text[1..]),
+        Some(b'+') => (false, &text[1..]),
+        _ => (false, text),
+    };
+    if digits.starts_with(['+', '-']) {
+        return None;
+    }
+    let (radix, body) = if let Some(r) = digits.strip_prefix("0x") {
+        (16, r)
+    } else if let Some(r) = digits.strip_prefix("0o") {
+        (8, r)
+    } else if let Some(r) = digits.strip_prefix("0b") {
+        (2, r)
+    } else {
+        if leading_zero_digits(text) {
+            return None;
+        }
+        (10, digits)
+    };
+    if body.is_empty() || body.starts_with(['+', '-']) {
+        return None;
+    }
+    let magnitude = u128::from_str_radix(body, radix).ok()?;
+    if negative {
+        let v = i64::try_from(-i128::try_from(magnitude).ok()?).ok()?;
+        Some(Value::Number(Number::from(v)))
+    } else {
+        u64::try_from(magnitude)
+            .ok()
+            .map(|v| Value::Number(Number::from(v)))
+    }
+}
+
+/// A float: `.inf`, `-.inf`, `.nan` in their three spellings, or a finite
+/// number Rust reads (`inf`, `nan` and overflowing text stay text).
+fn parse_float(text: &str) -> Option<f64> {
+    let unsigned = match text.strip_prefix('+') {
+        Some(u) if u.starts_with(['+', '-']) => return None,
+        Some(u) => u,
+        None => text,
+    };
+    if matches!(unsigned, ".inf" | ".Inf" | ".INF") {
+        return Some(f64::INFINITY);
+    }
+    if matches!(text, "-.inf" | "-.Inf" | "-.INF") {
+        return Some(f64::NEG_INFINITY);
+    }
+    if matches!(text, ".nan" | ".NaN" | ".NAN") {
+        return Some(f64::NAN);
+    }
+    unsigned.parse::<f64>().ok().filter(|f| f.is_finite())
 }
 
 enum NodeKind {
