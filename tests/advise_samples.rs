@@ -64,3 +64,61 @@ fn building_collapse_life_request_is_found_and_sufficient() {
         "with the requested units the best plan's worst life odds are {life_worst}"
     );
 }
+
+/// The time limits of the loss assessment: what they leave out is counted
+/// and said, never dropped silently, and the order is life safety first.
+#[test]
+fn the_time_limits_count_and_say_what_they_leave_out() {
+    use oddsboard::advise::fragility::placed_units;
+    use std::time::Duration;
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample-incidents/warehouse-fire.yaml");
+    let incident = load_incident_file(&path).expect("sample loads");
+    let cancel = AtomicBool::new(false);
+    let placed = placed_units(&incident);
+    assert!(placed.len() > 3, "the sample places units");
+    // Life-safety tasks' units first, then stabilization, then property.
+    let tiers: Vec<Tier> = placed
+        .iter()
+        .map(|&(_, t)| incident.tasks[t].tier)
+        .collect();
+    assert!(tiers.windows(2).all(|w| w[0] <= w[1]), "{tiers:?}");
+
+    let none = AdviseOptions {
+        loss_time_limit: Duration::ZERO,
+        absorb_time_limit: Duration::ZERO,
+        ..AdviseOptions::default()
+    };
+    let advice = advise(&incident, &none, &cancel).expect("advice");
+    assert!(advice.fragility.is_empty());
+    assert_eq!(advice.losses_not_assessed, placed.len());
+    let skipped = advice.absorb.iter().filter(|a| a.not_assessed).count();
+    assert!(skipped > 0, "a secure task was left out");
+    assert!(advice.absorb.iter().all(|a| a.absorbs.is_none()));
+    let note = advice
+        .notes
+        .iter()
+        .find(|n| n.text.starts_with("Time limit reached"))
+        .expect("a note says what was left out");
+    assert!(
+        note.text
+            .contains(&format!("{} placed units", placed.len())),
+        "{}",
+        note.text
+    );
+    assert!(
+        note.text.contains(&format!("{skipped} task")),
+        "{}",
+        note.text
+    );
+
+    // With the default limits the sample is assessed whole, and no note says otherwise.
+    let all = advise(&incident, &AdviseOptions::default(), &cancel).expect("advice");
+    assert_eq!(all.fragility.len(), placed.len());
+    assert_eq!(all.losses_not_assessed, 0);
+    assert!(all.absorb.iter().all(|a| !a.not_assessed));
+    assert!(
+        !all.notes
+            .iter()
+            .any(|n| n.text.starts_with("Time limit reached"))
+    );
+}

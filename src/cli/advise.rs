@@ -31,9 +31,25 @@ pub struct Args {
     /// Leave out the per-task count of absorbable losses (faster).
     #[arg(long)]
     pub no_absorb: bool,
+    /// Time limit of the one-loss assessment of all placed units, in
+    /// seconds (units on life-safety tasks first; the rest is counted as not
+    /// assessed).
+    #[arg(long, default_value_t = 15.0, value_parser = limit_seconds)]
+    pub loss_limit_s: f64,
+    /// Time limit of the absorbable-loss counts of all tasks, in seconds
+    /// (life-safety tasks first).
+    #[arg(long, default_value_t = 10.0, value_parser = limit_seconds)]
+    pub absorb_limit_s: f64,
     /// Print one JSON document instead of the report.
     #[arg(long)]
     pub json: bool,
+}
+
+fn limit_seconds(s: &str) -> Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(v) if v.is_finite() && (0.0..=86_400.0).contains(&v) => Ok(v),
+        _ => Err(format!("a number of seconds from 0 to 86400, got `{s}`")),
+    }
 }
 
 fn tiers_cell(tiers: &[TierOdds]) -> String {
@@ -61,6 +77,8 @@ pub fn run(args: Args) -> CliResult {
         max_extra_units: args.max_extra,
         seed: args.seed,
         absorb: !args.no_absorb,
+        loss_time_limit: Duration::from_secs_f64(args.loss_limit_s),
+        absorb_time_limit: Duration::from_secs_f64(args.absorb_limit_s),
         ..AdviseOptions::default()
     };
     let cancel = AtomicBool::new(false);
@@ -124,6 +142,14 @@ pub fn render(incident: &Incident, advice: &Advice, options: &AdviseOptions) -> 
         }
         out.push_str(&cols.render(2));
     }
+    if advice.losses_not_assessed > 0 {
+        out.push_str(&format!(
+            "  Not assessed: {} more placed unit{} (the loss time limit, {:.0} s, was reached; life-safety tasks' units come first).\n",
+            advice.losses_not_assessed,
+            if advice.losses_not_assessed == 1 { "" } else { "s" },
+            options.loss_time_limit.as_secs_f64()
+        ));
+    }
     out.push_str(&wrap(
         "SPOF (single point of failure): the loss takes a life-safety task below its secure level or to the gamble side, even after re-planning.",
         76,
@@ -143,6 +169,7 @@ pub fn render(incident: &Incident, advice: &Advice, options: &AdviseOptions) -> 
         );
         for a in &advice.absorb {
             let absorbs = match (a.secure_now, a.absorbs) {
+                _ if a.not_assessed => "not assessed (time limit)".to_string(),
                 (false, _) => "not secure now".to_string(),
                 (true, None) => "-".to_string(),
                 (true, Some(n)) if a.at_least => format!("{n}+"),

@@ -24,6 +24,11 @@
 //! worst case is the minimum over every order of losses, so with exact
 //! re-plans the greedy count is an upper bound on it (greedy follows one
 //! order). The count stops at [`ABSORB_CAP`].
+//!
+//! Both run under a time limit ([`AdviseOptions::loss_time_limit`],
+//! [`AdviseOptions::absorb_time_limit`]), most important tier first, so a very
+//! large incident gets advice in bounded time: what the limit left out is
+//! counted and said, never silently dropped.
 
 use super::{AdviseError, AdviseOptions, TierOdds, tier_odds};
 use crate::model::{Incident, Placement, TaskIdx, Tier, UnitIdx};
@@ -33,6 +38,7 @@ use crate::solver::{ObjectiveKey, SolveReport, solve};
 use serde::Serialize;
 use std::cmp::Ordering;
 use std::sync::atomic::AtomicBool;
+use std::time::Instant;
 
 /// Absorbable losses are counted up to this many.
 pub const ABSORB_CAP: u32 = 8;
@@ -84,6 +90,8 @@ pub struct TaskAbsorb {
     pub at_least: bool,
     /// The units lost, in the greedy order.
     pub sequence: Vec<String>,
+    /// The absorb time limit was reached before this task's turn.
+    pub not_assessed: bool,
 }
 
 struct TaskState {
@@ -126,8 +134,22 @@ fn replan(
     solve(incident, &opts, cancel, &mut |_| {})
 }
 
-/// Fragility of every unit placed on the ground (on an open task), most
-/// costly loss first. `base` is the baseline plan of `incident`.
+/// Units placed on the ground (on an open task), those on life-safety
+/// tasks first, then stabilization, then property; roster order within a
+/// tier.
+pub fn placed_units(incident: &Incident) -> Vec<(UnitIdx, TaskIdx)> {
+    let mut placed: Vec<(UnitIdx, TaskIdx)> = UnitIdx::range(incident.units.len())
+        .filter_map(|u| incident.placement.get(u).map(|t| (u, t)))
+        .filter(|&(_, t)| incident.tasks[t].is_open())
+        .collect();
+    placed.sort_by_key(|&(_, t)| incident.tasks[t].tier);
+    placed
+}
+
+/// Fragility of the units placed on the ground (on an open task), most
+/// costly loss first, as many as [`AdviseOptions::loss_time_limit`] allows
+/// in the order of [`placed_units`]. `base` is the baseline plan of
+/// `incident`.
 pub fn unit_losses(
     incident: &Incident,
     base: &SolveReport,
@@ -135,13 +157,11 @@ pub fn unit_losses(
     cancel: &AtomicBool,
 ) -> Result<Vec<UnitLoss>, AdviseError> {
     let before = task_states(incident, &base.placement);
+    let start = Instant::now();
     let mut out = Vec::new();
-    for u in crate::model::UnitIdx::range(incident.units.len()) {
-        let Some(on) = incident.placement.get(u) else {
-            continue;
-        };
-        if !incident.tasks[on].is_open() {
-            continue;
+    for (u, on) in placed_units(incident) {
+        if start.elapsed() >= options.loss_time_limit {
+            break;
         }
         let unit = &incident.units[u];
         let mut lost = incident.clone();
@@ -207,7 +227,8 @@ pub fn unit_losses(
     Ok(out)
 }
 
-/// Absorbable losses of every open task (board order); see the module docs.
+/// Absorbable losses of every open task, life-safety tasks first (roster
+/// order within a tier); see the module docs.
 pub fn task_absorbs(
     incident: &Incident,
     base: &SolveReport,
@@ -215,12 +236,14 @@ pub fn task_absorbs(
     cancel: &AtomicBool,
 ) -> Result<Vec<TaskAbsorb>, AdviseError> {
     let base_tallies = tallies(incident, &base.placement);
+    let start = Instant::now();
     let mut out = Vec::new();
-    for (t, task) in incident.tasks.iter().enumerate() {
-        let t = crate::model::TaskIdx::new(t);
-        if !task.is_open() {
-            continue;
-        }
+    let mut order: Vec<TaskIdx> = TaskIdx::range(incident.tasks.len())
+        .filter(|&t| incident.tasks[t].is_open())
+        .collect();
+    order.sort_by_key(|&t| incident.tasks[t].tier);
+    for t in order {
+        let task = &incident.tasks[t];
         let units = base_tallies[t].count() as usize;
         let ln = base_tallies[t].ln_odds(task);
         let has_needs = task.needs.iter().any(|n| n.counts()) || task.min_units.is_some();
@@ -233,8 +256,11 @@ pub fn task_absorbs(
             absorbs: None,
             at_least: false,
             sequence: Vec::new(),
+            not_assessed: false,
         };
-        if secure_now && has_needs {
+        if secure_now && has_needs && start.elapsed() >= options.absorb_time_limit {
+            entry.not_assessed = true;
+        } else if secure_now && has_needs {
             let (count, at_least, sequence) = absorb_one(incident, base, t, options, cancel);
             entry.absorbs = Some(count);
             entry.at_least = at_least;

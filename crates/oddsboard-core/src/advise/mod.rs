@@ -62,6 +62,14 @@ pub struct AdviseOptions {
     pub request_time_limit: Duration,
     /// Compute per-task absorbable losses. Default true.
     pub absorb: bool,
+    /// Time limit of the one-loss assessment over all placed units (units
+    /// on life-safety tasks first, then stabilization, then property); the
+    /// units left when it is reached are counted as not assessed. Default
+    /// 15 s: a few hundred units fit well within it.
+    pub loss_time_limit: Duration,
+    /// Time limit of the absorbable-loss counts over all tasks (board
+    /// order: life-safety tasks first). Default 10 s.
+    pub absorb_time_limit: Duration,
 }
 
 impl Default for AdviseOptions {
@@ -77,6 +85,8 @@ impl Default for AdviseOptions {
             per_request_budget: Duration::from_millis(20),
             request_time_limit: Duration::from_millis(1500),
             absorb: true,
+            loss_time_limit: Duration::from_secs(15),
+            absorb_time_limit: Duration::from_secs(10),
         }
     }
 }
@@ -156,6 +166,9 @@ pub struct Advice {
     pub baseline_proven: bool,
     /// Placed units, most costly loss first.
     pub fragility: Vec<UnitLoss>,
+    /// Placed units whose loss was not assessed: the loss time limit was
+    /// reached first ([`AdviseOptions::loss_time_limit`]).
+    pub losses_not_assessed: usize,
     /// Open tasks in board order.
     pub absorb: Vec<TaskAbsorb>,
     /// One entry per tier that is not secure even with the best plan.
@@ -185,6 +198,7 @@ pub fn advise(
 ) -> Result<Advice, AdviseError> {
     let base = baseline_plan(incident, options, cancel)?;
     let fragility = fragility::unit_losses(incident, &base, options, cancel)?;
+    let losses_not_assessed = fragility::placed_units(incident).len() - fragility.len();
     let absorb = if options.absorb {
         fragility::task_absorbs(incident, &base, options, cancel)?
     } else {
@@ -192,12 +206,17 @@ pub fn advise(
     };
     let requests = requests::tier_requests(incident, options, cancel)?;
     let baseline = tier_odds(incident, &base.key);
-    let notes = notes::notes(incident, &base, &fragility, &absorb, &requests);
+    let mut notes = notes::notes(incident, &base, &fragility, &absorb, &requests);
+    notes.extend(notes::not_assessed(
+        losses_not_assessed,
+        absorb.iter().filter(|a| a.not_assessed).count(),
+    ));
     Ok(Advice {
         incident: incident.name.clone(),
         baseline,
         baseline_proven: base.proven_optimal,
         fragility,
+        losses_not_assessed,
         absorb,
         requests,
         notes,

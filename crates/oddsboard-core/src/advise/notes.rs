@@ -54,6 +54,36 @@ fn note(level: NoteLevel, text: String, task: Option<&str>, unit: Option<&str>) 
     }
 }
 
+/// What the time limits of the loss assessment left out, said rather than
+/// dropped: `units` placed units whose loss was not assessed, `tasks`
+/// secure tasks whose absorbable losses were not counted.
+pub fn not_assessed(units: usize, tasks: usize) -> Option<Note> {
+    let mut parts = Vec::new();
+    if units > 0 {
+        parts.push(format!(
+            "the loss of {units} placed unit{}",
+            if units == 1 { "" } else { "s" }
+        ));
+    }
+    if tasks > 0 {
+        parts.push(format!(
+            "the absorbable losses of {tasks} task{}",
+            if tasks == 1 { "" } else { "s" }
+        ));
+    }
+    (!parts.is_empty()).then(|| {
+        note(
+            NoteLevel::Info,
+            format!(
+                "Time limit reached: {} not assessed. Life-safety tasks and their units are assessed first, property conservation last.",
+                parts.join(" and ")
+            ),
+            None,
+            None,
+        )
+    })
+}
+
 fn request_hint(requests: &[TierRequest], tier: Tier) -> String {
     match requests.iter().find(|r| r.tier == tier.as_str()) {
         Some(TierRequest {
