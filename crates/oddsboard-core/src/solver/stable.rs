@@ -117,9 +117,20 @@ fn cost(ctx: &Ctx, state: &State, ground: &[Option<TaskIdx>]) -> Disruption {
 }
 
 /// Sends units back to their ground places while the plan stays
-/// acceptable: withdrawals are undone first, then dispatches.
-pub fn prune_toward_ground(ctx: &Ctx, state: &mut State, ground: &[Option<TaskIdx>], thr: &[f64]) {
+/// acceptable: withdrawals are undone first, then dispatches. The first
+/// pass over the units always runs; later passes and the pairs stop when
+/// `budget` is spent (the plan stays acceptable, with more moves than it
+/// might need): on very large incidents each check costs a sort of the key
+/// and the pairs are quadratic in the moved units.
+pub fn prune_toward_ground(
+    ctx: &Ctx,
+    state: &mut State,
+    ground: &[Option<TaskIdx>],
+    thr: &[f64],
+    budget: &Budget,
+) {
     let inc = ctx.inc;
+    let mut first_pass = true;
     loop {
         let mut changed = false;
         for withdrawals in [true, false] {
@@ -127,6 +138,9 @@ pub fn prune_toward_ground(ctx: &Ctx, state: &mut State, ground: &[Option<TaskId
                 let (from, to) = (state.place[u], ground[u]);
                 if from == to || to.is_some() != withdrawals {
                     continue;
+                }
+                if (!first_pass && budget.exhausted()) || budget.cancelled() {
+                    return;
                 }
                 if let Some(t) = to
                     && (!ctx.allowed_on[u][t] || state.tallies[t].count() >= ctx.max_units[t])
@@ -144,7 +158,8 @@ pub fn prune_toward_ground(ctx: &Ctx, state: &mut State, ground: &[Option<TaskId
                 }
             }
         }
-        if !changed && !prune_pairs(ctx, state, ground, thr) {
+        first_pass = false;
+        if !changed && !prune_pairs(ctx, state, ground, thr, budget) {
             return;
         }
     }
@@ -153,7 +168,13 @@ pub fn prune_toward_ground(ctx: &Ctx, state: &mut State, ground: &[Option<TaskId
 /// Sends two moved units back to their ground places at once (e.g. two
 /// units that traded places) if the plan stays acceptable and feasible.
 /// Returns whether a pair went back.
-fn prune_pairs(ctx: &Ctx, state: &mut State, ground: &[Option<TaskIdx>], thr: &[f64]) -> bool {
+fn prune_pairs(
+    ctx: &Ctx,
+    state: &mut State,
+    ground: &[Option<TaskIdx>],
+    thr: &[f64],
+    budget: &Budget,
+) -> bool {
     let inc = ctx.inc;
     let moved: Vec<UnitIdx> = ctx
         .movable
@@ -164,6 +185,9 @@ fn prune_pairs(ctx: &Ctx, state: &mut State, ground: &[Option<TaskIdx>], thr: &[
     let fits =
         |s: &State, t: Option<TaskIdx>| t.is_none_or(|t| s.tallies[t].count() <= ctx.max_units[t]);
     for (i, &u) in moved.iter().enumerate() {
+        if budget.exhausted() {
+            return false;
+        }
         for &v in &moved[i + 1..] {
             let (fu, fv) = (state.place[u], state.place[v]);
             // Through reserve, so no task is over its maximum in between.
@@ -200,7 +224,7 @@ pub fn stable_plan(
     let inc = ctx.inc;
     let g = &ground.0;
     let mut from_leader = leader.clone();
-    prune_toward_ground(ctx, &mut from_leader, g, thr);
+    prune_toward_ground(ctx, &mut from_leader, g, thr, budget);
 
     // Repair steps are ranked with each tier capped at its highest
     // threshold (fast, separable): a task below it is a bottleneck.
@@ -228,12 +252,12 @@ pub fn stable_plan(
         ok = meets(ctx, &from_ground, thr);
     }
     let mut best = from_leader;
-    let mut candidates = vec![walk_toward(ctx, ground, leader, thr)];
+    let mut candidates = vec![walk_toward(ctx, ground, leader, thr, budget)];
     if ok {
         candidates.push(Some(from_ground));
     }
     for mut c in candidates.into_iter().flatten() {
-        prune_toward_ground(ctx, &mut c, g, thr);
+        prune_toward_ground(ctx, &mut c, g, thr, budget);
         let (ca, cb) = (cost(ctx, &c, g), cost(ctx, &best, g));
         if ca < cb || (ca == cb && c.key(ctx).better_than(&best.key(ctx))) {
             best = c;
@@ -245,13 +269,24 @@ pub fn stable_plan(
 /// From the ground, the leader's placements one unit at a time, each time
 /// the one that most raises the key with every entry held at its
 /// threshold, until the plan is acceptable (at worst the leader itself).
-fn walk_toward(ctx: &Ctx, ground: &Placement, leader: &State, thr: &[f64]) -> Option<State> {
+/// `None` when `budget` runs out first: each step tries every movable unit,
+/// so the walk is quadratic in them.
+fn walk_toward(
+    ctx: &Ctx,
+    ground: &Placement,
+    leader: &State,
+    thr: &[f64],
+    budget: &Budget,
+) -> Option<State> {
     let inc = ctx.inc;
     let held = ctx.with_floors(thr);
     let mut s = State::new(ctx, &ctx.repair(ground));
     for _ in 0..=ctx.movable.len() {
         if meets(ctx, &s, thr) {
             return Some(s);
+        }
+        if budget.exhausted() {
+            return None;
         }
         let mut best: Option<(UnitIdx, ObjectiveKey)> = None;
         for &u in &ctx.movable {
