@@ -272,7 +272,8 @@ pub fn render(form: &Form, theme: &Theme, frame: &mut Frame, area: Rect) {
     let popup = area.centered(Constraint::Length(w), Constraint::Length(h));
     frame.render_widget(Clear, popup);
     frame.render_widget(
-        Paragraph::new(lines).block(Block::bordered().title(format!(" {} ", form.kind.title()))),
+        Paragraph::new(super::format::clean_lines(lines))
+            .block(Block::bordered().title(format!(" {} ", form.kind.title()))),
         popup,
     );
     if let Some((x, y)) = cursor_at {

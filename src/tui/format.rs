@@ -1,6 +1,8 @@
 //! Number formatting shared by the panels: amounts in their trait's own
 //! unit, bars of eighths. Odds are written by `odds::text`, as everywhere.
 
+use ratatui::text::Line;
+
 /// An amount with a sensible number of digits.
 pub fn amount(x: f64) -> String {
     if !x.is_finite() {
@@ -85,6 +87,29 @@ pub fn pad(s: &str, width: usize) -> String {
     let cut = fit(s, width);
     let n = cut.chars().count();
     format!("{cut}{}", " ".repeat(width - n))
+}
+
+/// Text from outside (a label, a note, a reason, an actor) as the screen
+/// may show it: control characters escaped (`\u{1b}`), see `clean`.
+pub fn shown(s: &str) -> std::borrow::Cow<'_, str> {
+    crate::clean::clean(s)
+}
+
+/// Every span of `lines` with its control characters escaped: each panel
+/// passes what it draws through here, so nothing from a file or a feed
+/// reaches the terminal raw. Spans without one are kept as they are.
+pub fn clean_lines<'a>(lines: Vec<Line<'a>>) -> Vec<Line<'a>> {
+    lines.into_iter().map(clean_line).collect()
+}
+
+/// One line's spans with their control characters escaped.
+pub fn clean_line(mut line: Line<'_>) -> Line<'_> {
+    for span in &mut line.spans {
+        if let std::borrow::Cow::Owned(s) = crate::clean::clean(&span.content) {
+            span.content = s.into();
+        }
+    }
+    line
 }
 
 /// "1 move", "3 moves": a count with its noun in the right number.

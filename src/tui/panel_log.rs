@@ -46,13 +46,18 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
         .rev()
         .take(list_area.height as usize)
         .map(|l| {
-            let head = format!("#{:<4} {} {:<5} ", l.seq, l.at, fit(&l.by, 5));
+            let head = format!(
+                "#{:<4} {} {:<5} ",
+                l.seq,
+                l.at,
+                fit(&super::format::shown(&l.by), 5)
+            );
             let rest = w.saturating_sub(head.chars().count());
             Line::from(vec![
                 Span::styled(head, th.dim()),
-                Span::raw(fit(&l.text, rest)),
+                Span::raw(fit(&super::format::shown(&l.text), rest)),
             ])
         })
         .collect();
-    frame.render_widget(Paragraph::new(lines), list_area);
+    frame.render_widget(Paragraph::new(super::format::clean_lines(lines)), list_area);
 }

@@ -148,7 +148,10 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
         };
         Line::styled(keep_percent(&text), style)
     }));
-    frame.render_widget(Paragraph::new(lines).wrap(Wrap { trim: true }), notes_area);
+    frame.render_widget(
+        Paragraph::new(super::format::clean_lines(lines)).wrap(Wrap { trim: true }),
+        notes_area,
+    );
     frame.render_widget(
         Paragraph::new(Line::styled(caution, th.dim())).wrap(Wrap { trim: true }),
         caution_area,

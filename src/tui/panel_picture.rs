@@ -225,7 +225,7 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
             format!(
                 " {} · {} · {} ",
                 task.id,
-                task.label,
+                super::format::shown(&task.label),
                 tier_heading(task.tier).to_lowercase()
             )
         }
@@ -235,7 +235,7 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let inner = block.inner(area);
     let lines = lines(state, inner.width as usize, inner.height as usize);
     frame.render_widget(
-        Paragraph::new(lines)
+        Paragraph::new(super::format::clean_lines(lines))
             .block(block)
             .wrap(ratatui::widgets::Wrap { trim: false }),
         area,

@@ -82,7 +82,7 @@ pub fn render_header(state: &AppState, frame: &mut Frame, area: Rect) {
     let line = Line::from(vec![
         Span::styled(" oddsboard ", th.selected()),
         Span::styled(format!(" {} ", state.mode.word()), th.accent()),
-        Span::styled(fit(&inc.name, 40), th.heading()),
+        Span::styled(fit(&super::format::shown(&inc.name), 40), th.heading()),
         Span::raw(seq),
         Span::raw(" · "),
         Span::raw(worst),
@@ -106,9 +106,13 @@ pub fn render_status(state: &AppState, frame: &mut Frame, area: Rect) {
             th.dim(),
         ),
     };
-    frame.render_widget(Paragraph::new(left_line), left);
+    frame.render_widget(Paragraph::new(super::format::clean_line(left_line)), left);
     frame.render_widget(
-        Paragraph::new(Line::styled(plan, th.accent())).right_aligned(),
+        Paragraph::new(Line::styled(
+            super::format::shown(&plan).into_owned(),
+            th.accent(),
+        ))
+        .right_aligned(),
         right,
     );
 }

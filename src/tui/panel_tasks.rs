@@ -77,7 +77,10 @@ pub fn lines(state: &AppState, width: usize) -> (Vec<Line<'static>>, usize) {
         let mut spans = vec![Span::raw(marker), Span::raw(pad(&task.id, id_w))];
         if label_w > 0 {
             spans.push(Span::styled(
-                pad(&fit(&task.label, label_w), label_w + 1),
+                pad(
+                    &fit(&super::format::shown(&task.label), label_w),
+                    label_w + 1,
+                ),
                 th.dim(),
             ));
         }
@@ -156,7 +159,7 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     // Keep the selected task in view.
     let scroll = (selected_line + 1).saturating_sub(h);
     frame.render_widget(
-        Paragraph::new(lines)
+        Paragraph::new(super::format::clean_lines(lines))
             .block(block)
             .scroll((scroll as u16, 0)),
         area,

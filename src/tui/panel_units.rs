@@ -120,7 +120,7 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let n = state.incident.roster_len();
     let block = Block::bordered().title(format!(" Units ({n}) · * pinned · → moves "));
     frame.render_widget(
-        Paragraph::new(lines(state))
+        Paragraph::new(super::format::clean_lines(lines(state)))
             .block(block)
             .wrap(Wrap { trim: false })
             .scroll((state.roster_scroll, 0)),
