@@ -9,12 +9,17 @@ pub fn amount(x: f64) -> String {
         return if x > 0.0 { "∞".into() } else { "-∞".into() };
     }
     let a = x.abs();
-    if a >= 100.0 || a == 0.0 {
+    let s = if a >= 100.0 || a == 0.0 {
         format!("{x:.0}")
     } else if a >= 10.0 {
         format!("{x:.1}")
     } else {
         format!("{x:.2}")
+    };
+    // -0.0, or a tiny negative rounded to zero, is written without a sign.
+    match s.strip_prefix('-') {
+        Some(rest) if rest.chars().all(|c| c == '0' || c == '.') => rest.to_string(),
+        _ => s,
     }
 }
 
@@ -139,6 +144,9 @@ mod tests {
         assert_eq!(signed_amount(800.0), "+800");
         assert_eq!(signed_amount(-1200.4), "-1200");
         assert_eq!(signed_amount(0.25), "+0.25");
+        assert_eq!(amount(-0.0), "0");
+        assert_eq!(amount(-0.001), "0.00");
+        assert_eq!(signed_amount(-0.0), "+0");
         assert_eq!(pad("abcdef", 4), "abc…");
         assert_eq!(pad("ab", 4), "ab  ");
         assert_eq!(keep_percent("98.1 % < 99.0 %"), "98.1\u{a0}% < 99.0\u{a0}%");

@@ -18,7 +18,7 @@ use ratatui::widgets::{Block, Paragraph};
 
 use super::app::AppState;
 use super::board::tier_heading;
-use super::format::{amount, signed_amount, z_value};
+use super::format::{amount, shown, signed_amount, z_value};
 use crate::odds::text::{Detail, odds_text, pct_ln};
 use crate::odds::{ForcedZero, Regime, TraitOdds};
 
@@ -127,10 +127,23 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
     out.push(Line::from(vec![
         Span::raw("binding trait: "),
         Span::styled(
-            format!("{} ({}, {})", tr.id, tr.label, tr.unit),
+            format!("{} ({}, {})", tr.id, shown(&tr.label), shown(&tr.unit)),
             th.heading(),
         ),
     ]));
+    if o.forced_zero == Some(ForcedZero::NoUnits) {
+        // No capability to describe: the need and what it takes.
+        out.push(Line::raw(format!(
+            "need {} {} · no capability on it",
+            amount(b.need),
+            shown(&tr.unit)
+        )));
+        out.push(Line::styled(
+            "No units on this task: its odds are 0 until units are placed.",
+            th.poor(),
+        ));
+        return out;
+    }
     let need = if b.need_sd > 0.0 {
         format!(
             "need {} ± {} · margin spread ± {}",
@@ -159,13 +172,6 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
             format!("other needs: {}", others.join(" · ")),
             th.dim(),
         ));
-    }
-    if o.forced_zero == Some(ForcedZero::NoUnits) {
-        out.push(Line::styled(
-            "No units on this task: its odds are 0 until units are placed.",
-            th.poor(),
-        ));
-        return out;
     }
     if o.forced_zero == Some(ForcedZero::BelowMinimum) {
         out.push(Line::styled(
@@ -206,7 +212,7 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
     out.push(Line::styled(
         format!(
             "solid: capability at or above the need = odds {}; light: below{}",
-            pct_ln(b.ln_odds),
+            odds_text(b.ln_odds, b.ln_fail, Detail::Full),
             if b.need_sd > 0.0 {
                 " (curve drawn with the margin spread)"
             } else {

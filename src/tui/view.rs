@@ -33,13 +33,18 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     panel_status::render_header(state, frame, header);
     panel_status::render_status(state, frame, status);
 
-    let left_pct = match area.width {
-        0..130 => 62,
-        130..160 => 56,
-        _ => 52,
+    // The task board is as wide as its rows want (labels whole), within a
+    // share of the screen that leaves the right column room for the
+    // picture and the notes.
+    let max_pct: u16 = match area.width {
+        0..130 => 68,
+        130..180 => 64,
+        _ => 60,
     };
+    let wanted = (panel_tasks::wanted_width(state) + 2).min(u16::MAX as usize) as u16;
+    let left_w = wanted.clamp(area.width / 2, area.width * max_pct / 100);
     let [left, right] =
-        Layout::horizontal([Constraint::Percentage(left_pct), Constraint::Fill(1)]).areas(body);
+        Layout::horizontal([Constraint::Length(left_w), Constraint::Fill(1)]).areas(body);
     // The task board takes what it needs (up to two thirds), the units the rest.
     let board_lines = panel_tasks::lines(state, left.width.saturating_sub(2) as usize)
         .0
