@@ -18,6 +18,7 @@ use super::theme::Theme;
 pub enum FormKind {
     Lost,
     AddUnit,
+    AddTask,
     Rerate,
     ChangeNeed,
     CloseTask,
@@ -33,6 +34,7 @@ impl FormKind {
         match self {
             FormKind::Lost => "Mark a unit lost",
             FormKind::AddUnit => "Add a unit (arrives in reserve)",
+            FormKind::AddTask => "Open a new task",
             FormKind::Rerate => "Re-rate a unit",
             FormKind::ChangeNeed => "Change a need",
             FormKind::CloseTask => "Close a task",

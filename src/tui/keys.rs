@@ -24,13 +24,15 @@ pub(super) fn on_key(state: &mut AppState, key: KeyEvent) -> Vec<Effect> {
     }
     match &mut state.overlay {
         Overlay::Help => {
+            state.overlay = Overlay::None;
             if matches!(
                 key.code,
                 KeyCode::Esc | KeyCode::Char('?') | KeyCode::Enter | KeyCode::Char('q')
             ) {
-                state.overlay = Overlay::None;
+                return Vec::new();
             }
-            return Vec::new();
+            // Any other key listed in the help does what it says from here:
+            // the help is the way into every form.
         }
         Overlay::Form(form) => {
             return match form.on_key(key) {
@@ -81,6 +83,7 @@ fn command_key(state: &mut AppState, code: KeyCode) -> Option<Vec<Effect>> {
     let kind = match code {
         KeyCode::Char('l') => FormKind::Lost,
         KeyCode::Char('a') => FormKind::AddUnit,
+        KeyCode::Char('o') => FormKind::AddTask,
         KeyCode::Char('r') => FormKind::Rerate,
         KeyCode::Char('n') => FormKind::ChangeNeed,
         KeyCode::Char('c') => FormKind::CloseTask,

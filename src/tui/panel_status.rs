@@ -15,7 +15,7 @@ use crate::odds::text::pct_ln;
 pub fn key_hint(mode: Mode) -> &'static str {
     match mode {
         Mode::Command => {
-            "y accept · x reject · l lost · a add · r rate · n need · m move · p pin · u undo · ? keys · q quit"
+            "y accept · x reject · l lost · a unit · o task · r rate · n need · m move · p pin · u undo · ? keys · q quit"
         }
         Mode::Watch => "↑↓ task · PgUp/PgDn units · ? help · q quit · read-only",
         Mode::Replay => "←→ step · Home/End · g go to · space play · +/- speed · ? help · q quit",
