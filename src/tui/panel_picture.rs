@@ -195,12 +195,19 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
         ),
     };
     out.push(Line::styled(reading, th.heading()));
-    // Rows already used (lines wrap), plus axis, labels and a legend row.
-    let used: usize = out
-        .iter()
-        .map(|l| l.width().div_ceil(width.max(1)).max(1))
-        .sum();
-    let reserved = used + 3;
+    let legend = format!(
+        "solid: capability at or above the need = odds {}; light: below{}",
+        odds_text(b.ln_odds, b.ln_fail, Detail::Full),
+        if b.need_sd > 0.0 {
+            " (curve drawn with the margin spread)"
+        } else {
+            ""
+        }
+    );
+    // Rows already used (lines wrap), plus axis, labels and the legend.
+    let rows_of = |w: usize| w.div_ceil(width.max(1)).max(1);
+    let used: usize = out.iter().map(|l| rows_of(l.width())).sum();
+    let reserved = used + 2 + rows_of(legend.chars().count() + 2);
     let chart_h = height.saturating_sub(reserved).clamp(2, 12);
     let style = match o.regime() {
         Some(Regime::Gamble) => th.gamble(),
@@ -209,18 +216,7 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
     for row in chart(b, width, chart_h) {
         out.push(Line::styled(row, style));
     }
-    out.push(Line::styled(
-        format!(
-            "solid: capability at or above the need = odds {}; light: below{}",
-            odds_text(b.ln_odds, b.ln_fail, Detail::Full),
-            if b.need_sd > 0.0 {
-                " (curve drawn with the margin spread)"
-            } else {
-                ""
-            }
-        ),
-        th.dim(),
-    ));
+    out.push(Line::styled(legend, th.dim()));
     out
 }
 

@@ -55,15 +55,23 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     panel_tasks::render(state, frame, tasks);
     panel_units::render(state, frame, units);
 
-    let (picture_h, log) = match body.height {
+    let (picture_h, log_min) = match body.height {
         // The trainer's panel needs room more than the picture does.
-        _ if state.replay.is_some() && body.height < 45 => (11, Constraint::Fill(1)),
-        0..36 => (12, Constraint::Length(6)),
-        36..50 => (14, Constraint::Fill(1)),
-        _ => (18, Constraint::Fill(1)),
+        _ if state.replay.is_some() && body.height < 45 => (11, 12),
+        0..36 => (12, 6),
+        36..50 => (14, 6),
+        _ => (20, 8),
     };
-    let [picture, notes, log] =
-        Layout::vertical([Constraint::Length(picture_h), Constraint::Fill(1), log]).areas(right);
+    // The notes take the rows their text needs (up to what leaves the log
+    // its minimum), the log the rest.
+    let notes_room = body.height.saturating_sub(picture_h + log_min);
+    let notes_h = panel_notes::rows_wanted(state, right.width).clamp(6.min(notes_room), notes_room);
+    let [picture, notes, log] = Layout::vertical([
+        Constraint::Length(picture_h),
+        Constraint::Length(notes_h),
+        Constraint::Fill(1),
+    ])
+    .areas(right);
     panel_picture::render(state, frame, picture);
     panel_notes::render(state, frame, notes);
     if state.replay.is_some() {
