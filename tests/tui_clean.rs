@@ -2,6 +2,8 @@
 //! characters (C0, DEL, C1 — Unicode category Cc, the sets of ISO/IEC 6429)
 //! in an incident's name and labels, in notes, loss reasons and actors of
 //! log records is drawn escaped (`\u{1b}`), in every panel, at every size.
+//! (ratatui itself drops control characters from its buffer; the tests
+//! check that the text is shown escaped rather than silently altered.)
 
 mod tui_common;
 
@@ -63,6 +65,10 @@ fn dirty_drill(a: &str, b: &str) -> oddsboard::model::Incident {
             &format!("label: {}", yaml_quoted(a)),
         )
         .replace(
+            "label: Pumper engine",
+            &format!("label: {}", yaml_quoted(b)),
+        )
+        .replace(
             "{ id: water, label: Water delivery, unit: L/min }",
             &format!(
                 "{{ id: water, label: {}, unit: {} }}",
@@ -99,6 +105,18 @@ fn control_cells(b: &TestBackend) -> Vec<(u16, u16, String)> {
         }
     }
     bad
+}
+
+fn text_of(b: &TestBackend) -> String {
+    let buf = b.buffer();
+    (0..buf.area.height)
+        .map(|y| {
+            (0..buf.area.width)
+                .map(|x| buf[(x, y)].symbol())
+                .collect::<String>()
+        })
+        .collect::<Vec<_>>()
+        .join("\n")
 }
 
 fn feed(s: &mut AppState, a: &str, b: &str) {
@@ -143,9 +161,31 @@ proptest! {
                 let bad = control_cells(&draw(&s, w, h));
                 prop_assert!(bad.is_empty(), "{mode:?} {w}×{h}: {bad:?}");
             }
-            // The help overlay and a form over the board.
+            // ratatui drops control characters from its buffer on its own;
+            // what matters is that the text is shown, escaped, not silently
+            // changed: the newest note (`a`) in the log panel and the
+            // selected task's label (`b`) on the board and in the picture.
+            let screen = text_of(&draw(&s, 200, 60));
+            let escaped = |t: &str| -> String { oddsboard::clean::clean(t).chars().take(12).collect() };
+            let note_row = screen.lines().find(|r| r.contains("#4    09:30:00")).unwrap_or("");
+            prop_assert!(
+                note_row.contains(&format!("note: {}", escaped(&a))),
+                "{mode:?}: the note is not shown escaped: {note_row}"
+            );
+            let board_row = screen.lines().find(|r| r.contains("▸ T1 ")).unwrap_or("");
+            prop_assert!(
+                board_row.contains(&escaped(&b)),
+                "{mode:?}: the label is not shown escaped: {board_row}"
+            );
+            // The help overlay, and forms whose pickers list labels.
             update(&mut s, AppEvent::Key(KeyEvent::from(KeyCode::Char('?'))));
             prop_assert!(control_cells(&draw(&s, 140, 45)).is_empty());
+            for key in ['a', 'n', 'r'] {
+                update(&mut s, AppEvent::Key(KeyEvent::from(KeyCode::Esc)));
+                update(&mut s, AppEvent::Key(KeyEvent::from(KeyCode::Char(key))));
+                update(&mut s, AppEvent::Key(KeyEvent::from(KeyCode::Tab)));
+                prop_assert!(control_cells(&draw(&s, 140, 45)).is_empty(), "form {key}");
+            }
         }
     }
 }

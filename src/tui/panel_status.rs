@@ -22,7 +22,10 @@ pub fn key_hint(mode: Mode) -> &'static str {
     }
 }
 
-/// What the re-plan is doing, in words.
+/// What the re-plan is doing, in words. The status line shows it whole up
+/// to 3/5 of its width: the place for the search's progress and its bound
+/// (how far the best plan found may be from the best there is) as the
+/// solver reports them.
 pub fn plan_words(state: &AppState) -> String {
     let worst = |state: &AppState| {
         state
