@@ -82,10 +82,14 @@ pub fn render_header(state: &AppState, frame: &mut Frame, area: Rect) {
         }
         None => "no open task".into(),
     };
+    // The incident's name gives way to the worst task, whose id is whole.
+    let mode = format!(" {} ", state.mode.word());
+    let fixed = 11 + mode.chars().count() + seq.chars().count() + 3 + worst.chars().count();
+    let name_w = (area.width as usize).saturating_sub(fixed).clamp(8, 40);
     let line = Line::from(vec![
         Span::styled(" oddsboard ", th.selected()),
-        Span::styled(format!(" {} ", state.mode.word()), th.accent()),
-        Span::styled(fit(&super::format::shown(&inc.name), 40), th.heading()),
+        Span::styled(mode, th.accent()),
+        Span::styled(fit(&super::format::shown(&inc.name), name_w), th.heading()),
         Span::raw(seq),
         Span::raw(" · "),
         Span::raw(worst),

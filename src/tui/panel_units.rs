@@ -216,7 +216,7 @@ fn compact(state: &AppState) -> Vec<Line<'static>> {
         .map(|t| t.id.chars().count())
         .max()
         .unwrap_or(4)
-        .clamp(6, 18)
+        .max(6)
         + 1;
     for t in task_order(inc) {
         let task = &inc.tasks[t];
