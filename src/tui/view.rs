@@ -55,10 +55,12 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     panel_tasks::render(state, frame, tasks);
     panel_units::render(state, frame, units);
 
+    // The safety notes come before the log and the trainer's panel: these
+    // keep a minimum, the notes take what their text needs of the rest.
     let (picture_h, log_min) = match body.height {
-        // The trainer's panel needs room more than the picture does.
+        0..36 if state.replay.is_some() => (10, 8),
         _ if state.replay.is_some() && body.height < 45 => (11, 12),
-        0..36 => (12, 6),
+        0..36 => (10, 5),
         36..50 => (14, 6),
         _ => (20, 8),
     };
