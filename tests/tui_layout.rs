@@ -80,6 +80,15 @@ fn no_task_id_is_cut_at_100x30() {
                     screen.join("\n")
                 );
             }
+            // The header names the worst open task whole too.
+            if let Some(t) = oddsboard::tui::board::worst_open(&s.incident, &s.ground) {
+                let id = &s.incident.tasks[t].id;
+                assert!(
+                    screen[0].contains(&format!("worst task {id} ")),
+                    "{name}: header cuts {id}: {}",
+                    screen[0]
+                );
+            }
         }
     }
 }
