@@ -21,10 +21,7 @@ pub fn keys(mode: Mode) -> Vec<(&'static str, &'static str)> {
             ("x", "reject the proposal"),
             ("l", "mark a unit lost, with a reason"),
             ("a", "add a unit (id, type, optional rating)"),
-            (
-                "o",
-                "open a new task (id, label, tier, needs, accepts, min/max units)",
-            ),
+            ("o", "open a new task (id, label, tier, needs, limits)"),
             ("r", "re-rate a unit's trait (mean, sd)"),
             ("n", "change a need of the selected task"),
             ("c", "close the selected task with its outcome"),
