@@ -58,9 +58,9 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     // The safety notes come before the log and the trainer's panel: these
     // keep a minimum, the notes take what their text needs of the rest.
     let (picture_h, log_min) = match body.height {
-        0..36 if state.replay.is_some() => (10, 8),
+        0..36 if state.replay.is_some() => (8, 8),
         _ if state.replay.is_some() && body.height < 45 => (11, 12),
-        0..36 => (10, 5),
+        0..36 => (8, 4),
         36..50 => (14, 6),
         _ => (20, 8),
     };
