@@ -133,7 +133,11 @@ fn wrapped_rows(s: &str, width: usize) -> usize {
         } else {
             rows += usize::from(used > 0);
             rows += n.saturating_sub(1) / width;
-            used = n % width;
+            // The last row of the word: full when it ends on the edge.
+            used = match n % width {
+                0 if n > 0 => width,
+                r => r,
+            };
         }
     }
     rows
@@ -200,4 +204,19 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
         Paragraph::new(Line::styled(caution, th.dim())).wrap(Wrap { trim: true }),
         caution_area,
     );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::wrapped_rows;
+
+    // Counted by hand: greedy word wrap as ratatui's `Wrap` lays it out.
+    #[test]
+    fn rows_of_wrapped_text() {
+        assert_eq!(wrapped_rows("aaa bbb ccc", 7), 2); // "aaa bbb" / "ccc"
+        assert_eq!(wrapped_rows("aaa bbb ccc", 3), 3);
+        assert_eq!(wrapped_rows("abcdefgh", 3), 3); // "abc" / "def" / "gh"
+        assert_eq!(wrapped_rows("abcdef x", 3), 3); // "abc" / "def" / "x"
+        assert_eq!(wrapped_rows("", 10), 1);
+    }
 }
