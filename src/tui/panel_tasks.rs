@@ -45,7 +45,7 @@ fn cells(state: &AppState, t: crate::model::TaskIdx) -> Cells {
     let change = state.proposal.as_ref().and_then(|prop| {
         let po = &prop.odds[t];
         let then = pct_ln(po.ln_odds);
-        (pct_ln(o.ln_odds) != then).then(|| (po.ln_odds > o.ln_odds, then))
+        (pct_ln(o.ln_odds) != then).then_some((po.ln_odds > o.ln_odds, then))
     });
     Cells {
         odds: pct_ln(o.ln_odds),
