@@ -1,8 +1,8 @@
 //! Nothing from outside is printed raw by the command line: control
 //! characters (Unicode category Cc: C0, DEL, C1 — the sets of ISO/IEC 6429)
 //! in labels, notes, reasons and actors come out escaped (`\u{1b}`) from
-//! `timeline`, `report`, `odds`, `plan`, `sheet`, `check` and `record`'s
-//! echo; JSON keeps its standard escaping. Ids holding a control character
+//! `timeline`, `report`, `odds`, `plan`, `sheet`, `check`, `simulate`,
+//! `advise` and `record`'s echo; JSON keeps its standard escaping. Ids holding a control character
 //! are refused by `check`, `start` and `record` with a located error.
 
 #[path = "log_fixtures/common.rs"]
@@ -123,6 +123,14 @@ fn outputs_with_controls(a: &str, b: &str) -> Vec<String> {
     }
     run(&[&os("timeline"), &log_s, &os("--csv")], None);
     run(&[&os("plan"), &log_s, &os("--budget-ms"), &os("50")], None);
+    run(
+        &[&os("simulate"), &log_s, &os("--trials"), &os("500")],
+        None,
+    );
+    run(
+        &[&os("advise"), &log_s, &os("--loss-budget-ms"), &os("50")],
+        None,
+    );
     bad
 }
 
