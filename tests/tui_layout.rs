@@ -120,3 +120,33 @@ fn task_rows_keep_their_numbers_at_100x30() {
         }
     }
 }
+
+/// The add-task form over the board at the smallest size, with an error
+/// under the needs field.
+#[test]
+fn add_task_form_at_100x30() {
+    use oddsboard::tui::app::{AppEvent, update};
+    use ratatui::crossterm::event::{KeyCode, KeyEvent};
+    let mut s = state(Mode::Command, tui_common::drill());
+    let key = |s: &mut oddsboard::tui::AppState, c: KeyCode| {
+        update(s, AppEvent::Key(KeyEvent::from(c)));
+    };
+    key(&mut s, KeyCode::Char('o'));
+    for (text, enter) in [
+        ("search-annex", true),
+        ("Search the annex offices", true),
+        ("life", true),
+        ("crew 4", true),
+    ] {
+        for c in text.chars() {
+            key(&mut s, KeyCode::Char(c));
+        }
+        if enter {
+            key(&mut s, KeyCode::Enter);
+        }
+    }
+    for _ in 0..3 {
+        key(&mut s, KeyCode::Enter);
+    }
+    assert_snapshot!(draw(&s, 100, 30));
+}

@@ -60,18 +60,22 @@ fn served_trait(state: &AppState, u: UnitIdx) -> Option<usize> {
         })
 }
 
+fn status_word(status: crate::model::UnitStatus) -> &'static str {
+    match status {
+        crate::model::UnitStatus::OutOfService => "out of service",
+        crate::model::UnitStatus::Lost => "lost",
+        crate::model::UnitStatus::Available => "available",
+    }
+}
+
 /// One unit on its own row: id with its marks, type, status, rating on
 /// the trait it serves.
-fn unit_row(state: &AppState, u: UnitIdx, widths: (usize, usize)) -> Line<'static> {
+fn unit_row(state: &AppState, u: UnitIdx, widths: (usize, usize, usize)) -> Line<'static> {
     let th = &state.theme;
     let inc = &state.incident;
     let unit = &inc.units[u];
     let ty = &inc.unit_types[unit.type_idx].id;
-    let status = match unit.status {
-        crate::model::UnitStatus::OutOfService => "out of service",
-        crate::model::UnitStatus::Lost => "lost",
-        crate::model::UnitStatus::Available => "available",
-    };
+    let status = status_word(unit.status);
     let rating = served_trait(state, u)
         .map(|k| {
             let r = unit.ratings[k];
@@ -95,7 +99,7 @@ fn unit_row(state: &AppState, u: UnitIdx, widths: (usize, usize)) -> Line<'stati
         Span::raw("  "),
         Span::raw(pad(&unit_token(state, u), widths.0 + 1)),
         Span::styled(pad(ty, widths.1 + 1), th.dim()),
-        Span::raw(pad(status, 10)),
+        Span::raw(pad(status, widths.2 + 1)),
         Span::raw(rating),
         Span::styled(moving, th.accent()),
     ])
@@ -117,6 +121,11 @@ fn detailed(state: &AppState) -> Vec<Line<'static>> {
         .map(|&u| inc.unit_types[inc.units[u].type_idx].id.chars().count())
         .max()
         .unwrap_or(4);
+    let status_w = roster
+        .iter()
+        .map(|&u| status_word(inc.units[u].status).len())
+        .max()
+        .unwrap_or(9);
     let mut out = Vec::new();
     let group = |title: String, units: Vec<UnitIdx>, out: &mut Vec<Line<'static>>| {
         out.push(Line::styled(
@@ -124,7 +133,7 @@ fn detailed(state: &AppState) -> Vec<Line<'static>> {
             th.heading(),
         ));
         for u in units {
-            out.push(unit_row(state, u, (id_w, ty_w)));
+            out.push(unit_row(state, u, (id_w, ty_w, status_w)));
         }
     };
     for t in task_order(inc) {
