@@ -236,6 +236,7 @@ fn watch_shows_a_note_with_escape_sequences_escaped() {
     let out = Command::new(bin())
         .arg("record")
         .arg(&log)
+        .args(["--by", "feed"])
         .arg(r#"{"kind":"note","text":"hostile \u001b]0;PWNED\u0007 then \u001b[2J end"}"#)
         .output()
         .expect("record runs");
@@ -244,7 +245,8 @@ fn watch_shows_a_note_with_escape_sequences_escaped() {
         "{}",
         String::from_utf8_lossy(&out.stderr)
     );
-    s.wait_for(r"hostile \u{1b}]0;PWNED\u{7}", Duration::from_secs(10));
+    // The log panel may cut the line short; its start is enough.
+    s.wait_for(r"note: hostile \u{1b}]0;PW", Duration::from_secs(10));
     assert_eq!(s.title(), title, "the pane title is unchanged");
     assert!(!s.title().contains("PWNED"));
     assert!(
