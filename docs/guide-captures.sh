@@ -14,6 +14,8 @@ cp "$ROOT/sample-incidents/warehouse-fire.yaml" "$WORK/"
 cp "$ROOT/sample-incidents/drill-warehouse-fire.log" "$WORK/"
 S=guide-$$
 export NO_COLOR=1
+# A failed wait leaves no session or scratch folder behind.
+trap 'tmux kill-session -t "$S" 2>/dev/null || true; rm -rf "$WORK"' EXIT
 
 wait_for() { # session, text, seconds
 	i=0
@@ -88,5 +90,4 @@ for size in "100 30" "200 60"; do
 	tmux kill-session -t "$S" 2>/dev/null || true
 	rm -f small.log small.yaml
 done
-rm -rf "$WORK"
 echo "captures in $OUT"
