@@ -9,7 +9,7 @@
 //! Decision support only: the odds are only as good as the ratings, and the
 //! plan never replaces the incident commander's judgement.
 
-pub use oddsboard_core::{advise, log, model, odds, report, rules, safety, solver};
+pub use oddsboard_core::{advise, clean, log, model, odds, report, rules, safety, solver};
 
 pub mod cli;
 pub mod tui;

@@ -405,3 +405,79 @@ fn watch_mode_ignores_commander_keys() {
     }
     assert!(matches!(s.overlay, Overlay::None));
 }
+
+#[test]
+fn open_a_new_task_through_the_form() {
+    let mut b = Bench::new(drill());
+    b.key(KeyCode::Char('o'));
+    b.type_enter("search-annex");
+    b.type_enter("Search the annex");
+    b.type_enter("stab");
+    b.type_enter("water 2000 ± 300, lift 2");
+    b.type_enter("engine heavy");
+    b.type_enter("1");
+    let written = b.type_enter("3");
+    assert_eq!(written.len(), 1, "{:?}", b.state.overlay);
+    match &written[0] {
+        Event::TaskAdded { task } => {
+            assert_eq!(task.id, "search-annex");
+            assert_eq!(task.label.as_deref(), Some("Search the annex"));
+            assert_eq!(task.tier.as_deref(), Some("stabilization"));
+            assert_eq!(task.needs.len(), 2);
+            assert_eq!(
+                task.accepts.as_deref(),
+                Some(&["engine".to_string(), "heavy".to_string()][..])
+            );
+            assert_eq!((task.min_units, task.max_units), (Some(1), Some(3)));
+        }
+        other => panic!("expected task_added, got {other:?}"),
+    }
+    let t = b
+        .state
+        .incident
+        .task_idx("search-annex")
+        .expect("on the board");
+    let need = b.state.incident.tasks[t].needs[0];
+    assert_eq!((need.need, need.sd), (2000.0, 300.0));
+    // A new task has no units: odds 0 until some are placed.
+    assert_eq!(b.state.ground[t.index()].odds(), 0.0);
+    assert_matches_log(&b);
+}
+
+#[test]
+fn a_new_task_with_an_unknown_trait_is_refused_inline() {
+    let mut b = Bench::new(drill());
+    b.key(KeyCode::Char('o'));
+    b.type_enter("T9");
+    b.type_enter("");
+    b.type_enter("life");
+    b.type_enter("foam 10");
+    for _ in 0..3 {
+        b.key(KeyCode::Enter);
+    }
+    match &b.state.overlay {
+        Overlay::Form(f) => {
+            let (field, msg) = f.error.clone().expect("error shown");
+            assert_eq!(field, 3);
+            assert!(msg.contains("unknown trait foam"), "{msg}");
+        }
+        other => panic!("expected the form with an error, got {other:?}"),
+    }
+    assert_eq!(b.records().len(), 1);
+}
+
+/// Every form is reachable from the help overlay: its key opens it there.
+#[test]
+fn every_form_opens_from_the_help_overlay() {
+    for key in ['l', 'a', 'o', 'r', 'n', 'c', 'p', 'm', 't'] {
+        let mut b = Bench::new(drill());
+        b.key(KeyCode::Char('?'));
+        assert!(matches!(b.state.overlay, Overlay::Help));
+        b.key(KeyCode::Char(key));
+        assert!(
+            matches!(b.state.overlay, Overlay::Form(_)),
+            "{key} from the help: {:?}",
+            b.state.overlay
+        );
+    }
+}

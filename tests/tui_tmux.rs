@@ -204,3 +204,101 @@ fn watch_shows_a_record_appended_by_another_process() {
     );
     s.keys(&["q"]);
 }
+
+impl Session {
+    fn title(&self) -> String {
+        let out = Command::new("tmux")
+            .args(["display", "-p", "-t", &self.0, "#{pane_title}"])
+            .output()
+            .expect("tmux display");
+        String::from_utf8_lossy(&out.stdout).trim().to_string()
+    }
+}
+
+/// The case of the issue: another process appends a note whose text would
+/// set the window title (OSC 0) and clear the screen (CSI 2J). The pane
+/// title stays as it was and `watch` shows the sequences escaped.
+#[test]
+fn watch_shows_a_note_with_escape_sequences_escaped() {
+    if !have_tmux() {
+        eprintln!("SKIPPED: tmux is not installed; the end-to-end watch test needs it");
+        return;
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let log = dir.path().join("drill.log");
+    LogWriter::create(&log, &tui_common::drill(), "ic").unwrap();
+    let s = Session::start(
+        "oddsboard-watch-esc",
+        &format!("{} watch {}", bin(), log.display()),
+    );
+    s.wait_for("WATCH", Duration::from_secs(20));
+    let title = s.title();
+    let out = Command::new(bin())
+        .arg("record")
+        .arg(&log)
+        .args(["--by", "feed"])
+        .arg(r#"{"kind":"note","text":"hostile \u001b]0;PWNED\u0007 then \u001b[2J end"}"#)
+        .output()
+        .expect("record runs");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    // The log panel may cut the line short; its start is enough.
+    s.wait_for(r"note: hostile \u{1b}]0;PW", Duration::from_secs(10));
+    assert_eq!(s.title(), title, "the pane title is unchanged");
+    assert!(!s.title().contains("PWNED"));
+    assert!(
+        s.screen().contains("LIFE SAFETY"),
+        "the screen was not cleared"
+    );
+    s.keys(&["q"]);
+}
+
+/// SIGTERM, SIGHUP and SIGINT sent to a running dashboard restore the
+/// terminal and end it with 128 + the signal's number (POSIX shells report
+/// a process ended by signal n as 128 + n).
+#[test]
+fn signals_restore_the_terminal_and_exit_128_plus_n() {
+    if !have_tmux() {
+        eprintln!("SKIPPED: tmux is not installed; the end-to-end signal test needs it");
+        return;
+    }
+    for (name, number) in [("TERM", 15), ("HUP", 1), ("INT", 2)] {
+        let dir = tempfile::tempdir().unwrap();
+        let log = dir.path().join("drill.log");
+        LogWriter::create(&log, &tui_common::drill(), "ic").unwrap();
+        let pid = dir.path().join("pid");
+        let code = dir.path().join("code");
+        // The inner shell writes its pid and becomes the dashboard (exec);
+        // the outer one keeps the exit code and shows a prompt-like line.
+        let inner = format!(
+            "echo $$ > {}; exec {} watch {}",
+            pid.display(),
+            bin(),
+            log.display()
+        );
+        let cmd = format!(
+            "sh -c '{inner}'; echo $? > {}; echo back-in-the-shell; sleep 30",
+            code.display()
+        );
+        let s = Session::start("oddsboard-signal", &cmd);
+        s.wait_for("WATCH", Duration::from_secs(20));
+        let p = std::fs::read_to_string(&pid).expect("pid written");
+        let status = Command::new("kill")
+            .args([&format!("-{name}"), p.trim()])
+            .status()
+            .expect("kill runs");
+        assert!(status.success());
+        s.wait_for("back-in-the-shell", Duration::from_secs(10));
+        let c = std::fs::read_to_string(&code).expect("exit code written");
+        assert_eq!(c.trim(), (128 + number).to_string(), "SIG{name}");
+        // The alternate screen is left: the board is gone from the pane.
+        assert!(
+            !s.screen().contains("LIFE SAFETY"),
+            "SIG{name}: {}",
+            s.screen()
+        );
+    }
+}

@@ -90,7 +90,10 @@ pub fn run(args: Args) -> CliResult {
         super::json::print_pretty(&advice)?;
         return Ok(());
     }
-    print!("{}", render(&incident, &advice, &options));
+    print!(
+        "{}",
+        crate::clean::clean_lines(&render(&incident, &advice, &options))
+    );
     Ok(())
 }
 

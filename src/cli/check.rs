@@ -64,7 +64,7 @@ pub fn run(args: Args) -> CliResult {
                 };
                 super::json::print_pretty(&report)?;
             } else {
-                println!("{summary}");
+                println!("{}", crate::clean::clean_lines(&summary));
             }
             Ok(())
         }

@@ -115,7 +115,11 @@ pub fn run(args: Args) -> CliResult {
     };
     let contents = read_log(&log_path)?;
     if let Some(t) = &contents.torn_tail {
-        eprintln!("warning: {}:{t}", log_path.display());
+        eprintln!(
+            "warning: {}:{}",
+            log_path.display(),
+            crate::clean::clean(&t.to_string())
+        );
     }
     // The writer has the snapshot's state already (it wrote or folded the
     // log): the snapshot is not loaded a second time.

@@ -30,7 +30,12 @@ pub fn looks_like_log(path: &Path) -> bool {
 pub fn read_log_reporting(path: &Path) -> anyhow::Result<(Incident, LogContents)> {
     let (state, contents) = load_log(path)?;
     if let Some(t) = &contents.torn_tail {
-        eprintln!("warning: {}:{}: {t}", path.display(), t.line);
+        eprintln!(
+            "warning: {}:{}: {}",
+            path.display(),
+            t.line,
+            crate::clean::clean(&t.to_string())
+        );
     }
     Ok((state, contents))
 }

@@ -122,7 +122,12 @@ pub fn main() -> ExitCode {
     match run(cli.command) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("error: {}", error_text(&e));
+            if let Some(crate::tui::launch::Signalled(n)) = e.downcast_ref() {
+                // The terminal is restored and every action is in the log.
+                eprintln!("oddsboard: stopped by signal {n}");
+                return ExitCode::from(u8::try_from(128 + n).unwrap_or(255));
+            }
+            eprintln!("error: {}", crate::clean::clean_lines(&error_text(&e)));
             ExitCode::from(1)
         }
     }

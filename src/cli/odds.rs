@@ -51,7 +51,7 @@ pub fn run(args: Args) -> CliResult {
     ));
     out.push_str(&joint_block(&view.joint_detail));
     out.push_str(&footer(&view.tasks));
-    print!("{out}");
+    print!("{}", crate::clean::clean_lines(&out));
     Ok(())
 }
 

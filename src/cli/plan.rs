@@ -671,6 +671,6 @@ pub fn run(args: Args) -> CliResult {
         out.push('\n');
     }
     out.push_str(&footer(&after));
-    print!("{out}");
+    print!("{}", crate::clean::clean_lines(&out));
     Ok(())
 }

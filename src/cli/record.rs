@@ -74,7 +74,11 @@ pub fn run(args: Args) -> CliResult {
         if args.json {
             super::json::print_rows(&[recorded(1, &record)])?;
         } else {
-            println!("recorded seq {}: {}", record.seq, record.event.describe());
+            println!(
+                "recorded seq {}: {}",
+                record.seq,
+                crate::clean::clean(&record.event.describe())
+            );
         }
         return Ok(());
     }
@@ -104,13 +108,13 @@ pub fn run(args: Args) -> CliResult {
                     println!(
                         "stdin:{line_no}: recorded seq {}: {}",
                         r.seq,
-                        r.event.describe()
+                        crate::clean::clean(&r.event.describe())
                     );
                 }
             }
             Err(e) => {
                 refused += 1;
-                eprintln!("stdin:{line_no}: refused: {e}");
+                eprintln!("stdin:{line_no}: refused: {}", crate::clean::clean(&e));
                 outcomes.push(Outcome {
                     line: line_no,
                     recorded: false,

@@ -198,7 +198,7 @@ pub fn task_table(tasks: &[TaskView], worst: &[TierWorst], opts: TableOptions) -
             let units = unit_list(&t.units);
             cols.push(vec![
                 t.id.clone(),
-                shorten(&t.label, 28),
+                shorten(&crate::clean::clean(&t.label), 28),
                 pct_detail(t.ln_odds, t.ln_fail),
                 regime_words(t.regime).to_string(),
                 binding,

@@ -21,7 +21,11 @@ pub struct Args {
 pub fn run(args: Args) -> CliResult {
     let contents = read_log(&args.log)?;
     if let Some(t) = &contents.torn_tail {
-        eprintln!("warning: {}:{t}", args.log.display());
+        eprintln!(
+            "warning: {}:{}",
+            args.log.display(),
+            crate::clean::clean(&t.to_string())
+        );
     }
     let mut state = replay_state(contents.records, Theme::from_env())?;
     if let Some(seq) = args.at {

@@ -33,7 +33,7 @@ pub fn run(args: Args) -> CliResult {
             eprintln!("chart written: {}", path.display());
         }
     } else {
-        print!("{}", render_markdown(&data));
+        print!("{}", crate::clean::clean_lines(&render_markdown(&data)));
         if !charts.is_empty() {
             println!("\n## Charts\n");
             for (title, path) in &charts {

@@ -549,9 +549,9 @@ pub fn run(args: Args) -> CliResult {
         return Ok(());
     }
     if args.csv {
-        print!("{}", csv_text(&sheet)?);
+        print!("{}", crate::clean::clean_lines(&csv_text(&sheet)?));
     } else {
-        print!("{}", markdown(&sheet));
+        print!("{}", crate::clean::clean_lines(&markdown(&sheet)));
     }
     Ok(())
 }

@@ -120,6 +120,6 @@ pub fn run(args: Args) -> CliResult {
     ));
     out.push('\n');
     out.push_str(&caution_text());
-    print!("{out}");
+    print!("{}", crate::clean::clean_lines(&out));
     Ok(())
 }

@@ -43,7 +43,7 @@ pub fn run(args: Args) -> CliResult {
     println!(
         "started {}: seq 1, incident snapshot of {} ({} units, {} tasks)",
         args.log.display(),
-        s.name,
+        crate::clean::clean(&s.name),
         s.roster_len(),
         s.tasks.len()
     );

@@ -164,7 +164,7 @@ enum Mode {
 }
 
 fn moves_words(moves: &[Move]) -> String {
-    crate::log::describe_moves(moves)
+    crate::clean::clean(&crate::log::describe_moves(moves)).into_owned()
 }
 
 fn csv_field(s: &str) -> String {
@@ -282,14 +282,15 @@ impl Mode {
                         )
                     })
                     .unwrap_or_default();
-                let words: String = if row.words.chars().count() > 44 {
-                    let mut w: String = row.words.chars().take(43).collect();
+                let words = crate::clean::clean(&row.words);
+                let words: String = if words.chars().count() > 44 {
+                    let mut w: String = words.chars().take(43).collect();
                     w.push('…');
                     w
                 } else {
-                    row.words.clone()
+                    words.into_owned()
                 };
-                let by: String = row.by.chars().take(12).collect();
+                let by: String = crate::clean::clean(&row.by).chars().take(12).collect();
                 writeln!(
                     out,
                     "{:>6}  {:<8}  {:<12}  {:<44}  {:>9} {:>9} {:>9}  {}",
@@ -310,9 +311,9 @@ impl Mode {
                     "{},{},{},{},{},{},{},{},{},{},{},{},{},{}",
                     row.seq,
                     row.at.to_rfc3339_opts(chrono::SecondsFormat::Millis, true),
-                    csv_field(&row.by),
+                    csv_field(&crate::clean::clean(&row.by)),
                     row.kind,
-                    csv_field(&row.words),
+                    csv_field(&crate::clean::clean(&row.words)),
                     csv_odds(row.worst[0]),
                     csv_odds(row.worst[1]),
                     csv_odds(row.worst[2]),

@@ -20,7 +20,11 @@ pub struct Args {
 pub fn run(args: Args) -> CliResult {
     let contents = read_log(&args.log)?;
     if let Some(t) = &contents.torn_tail {
-        eprintln!("warning: {}:{t}", args.log.display());
+        eprintln!(
+            "warning: {}:{}",
+            args.log.display(),
+            crate::clean::clean(&t.to_string())
+        );
     }
     let state = state_from_records(Mode::Watch, &contents.records, Theme::from_env())?;
     launch(

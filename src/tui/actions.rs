@@ -6,7 +6,10 @@ use super::app::AppState;
 use super::board::{place_name, task_order};
 use super::form::{Field, Form, FormKind};
 use crate::log::{Event, Move as MoveSpec, OutcomeValue};
-use crate::model::file::{RatingFile as RatingSpec, UnitFile as UnitSpec};
+use crate::model::file::{
+    NeedFile as NeedSpec, RatingFile as RatingSpec, TaskFile as TaskSpec,
+    UncertainNeedFile as UncertainNeedSpec, UnitFile as UnitSpec,
+};
 use crate::model::{Incident, Tier, UnitStatus};
 use crate::rules;
 
@@ -88,6 +91,31 @@ pub fn open_form(state: &AppState, kind: FormKind) -> Result<Form, String> {
                 Field::pick("rating of", traits, None),
                 Field::text("mean", "blank keeps the type's mean", ""),
                 Field::text("sd", "blank keeps the type's sd", ""),
+            ]
+        }
+        FormKind::AddTask => {
+            let tiers = Tier::ALL
+                .iter()
+                .map(|t| {
+                    (
+                        t.as_str().to_string(),
+                        super::board::tier_heading(*t).to_lowercase(),
+                    )
+                })
+                .collect();
+            let tier = state.selected_task().map(|t| inc.tasks[t].tier.as_str());
+            vec![
+                Field::text("id", "a new task id without spaces, e.g. search-annex", ""),
+                Field::text("label", "what the crews will do, e.g. Search the annex", ""),
+                Field::pick("tier", tiers, tier),
+                Field::text(
+                    "needs",
+                    "trait amount [± sd], comma-separated, e.g. water 3000, crew 4 ± 1",
+                    "",
+                ),
+                Field::text("accepts", "unit types it takes, blank = every type", ""),
+                Field::text("min units", "blank = no minimum crew", ""),
+                Field::text("max units", "blank = no limit", ""),
             ]
         }
         FormKind::Rerate => {
@@ -249,6 +277,7 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
                 },
             }])
         }
+        FormKind::AddTask => add_task(inc, form),
         FormKind::Rerate => {
             let unit = picked(form, 0, "unit")?;
             let trait_id = picked(form, 1, "trait")?;
@@ -357,6 +386,121 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
         // Replay navigation is handled by the replay keys, not the log.
         FormKind::GoTo => Ok(Vec::new()),
     }
+}
+
+/// A `task_added` event from the add-task form. What the form can check
+/// (names, numbers) it checks here with the field to point at; the rest
+/// (capacities against the roster…) is `log::apply`'s, as for any feed.
+fn add_task(inc: &Incident, form: &Form) -> Result<Vec<Event>, (usize, String)> {
+    let id = form.value(0);
+    if let Some(problem) = crate::clean::id_problem(&id) {
+        return Err((0, format!("the id {problem}")));
+    }
+    if id.chars().any(char::is_whitespace) {
+        return Err((0, "an id without spaces is required".into()));
+    }
+    if inc.task_idx(&id).is_some() {
+        return Err((0, format!("task {id} is already on the board")));
+    }
+    let label = form.value(1);
+    let tier = picked(form, 2, "tier")?;
+    let needs = parse_needs(inc, &form.value(3)).map_err(|m| (3, m))?;
+    let accepts = form.value(4);
+    let accepts: Vec<String> = accepts
+        .split([',', ' '])
+        .filter(|s| !s.is_empty())
+        .map(str::to_string)
+        .collect();
+    if let Some(bad) = accepts.iter().find(|a| inc.type_idx(a).is_none()) {
+        let known: Vec<&str> = inc.unit_types.iter().map(|t| t.id.as_str()).collect();
+        return Err((
+            4,
+            format!(
+                "unknown unit type {bad}; the types are {}",
+                known.join(", ")
+            ),
+        ));
+    }
+    let count = |i: usize, what: &str| -> Result<Option<i64>, (usize, String)> {
+        let s = form.value(i);
+        if s.is_empty() {
+            return Ok(None);
+        }
+        match s.parse::<i64>() {
+            Ok(n) if n >= 0 => Ok(Some(n)),
+            _ => Err((i, format!("{what} must be a whole number ≥ 0, got {s:?}"))),
+        }
+    };
+    let min_units = count(5, "min units")?;
+    let max_units = count(6, "max units")?;
+    if let (Some(lo), Some(hi)) = (min_units, max_units)
+        && lo > hi
+    {
+        return Err((6, format!("max units {hi} is below min units {lo}")));
+    }
+    Ok(vec![Event::TaskAdded {
+        task: TaskSpec {
+            id,
+            label: (!label.is_empty()).then_some(label),
+            tier: Some(tier),
+            needs,
+            accepts: (!accepts.is_empty()).then_some(accepts),
+            min_units,
+            max_units,
+            outcome: None,
+        },
+    }])
+}
+
+/// `water 3000, crew 4 ± 1` (or `+-` for `±`): each need a known trait and
+/// an amount ≥ 0 with an optional sd; at least one.
+pub fn parse_needs(
+    inc: &Incident,
+    text: &str,
+) -> Result<std::collections::BTreeMap<String, NeedSpec>, String> {
+    let mut needs = std::collections::BTreeMap::new();
+    for part in text.split(',').map(str::trim).filter(|p| !p.is_empty()) {
+        let part = part.replace("+-", "±");
+        let (head, sd) = match part.split_once('±') {
+            Some((h, sd)) => (h.trim().to_string(), Some(sd.trim().to_string())),
+            None => (part.clone(), None),
+        };
+        let mut words = head.split_whitespace();
+        let (Some(trait_id), Some(amount), None) = (words.next(), words.next(), words.next())
+        else {
+            return Err(format!(
+                "write each need as `trait amount [± sd]`, not {part:?}"
+            ));
+        };
+        if inc.trait_idx(trait_id).is_none() {
+            let known: Vec<&str> = inc.traits.iter().map(|t| t.id.as_str()).collect();
+            return Err(format!(
+                "unknown trait {trait_id}; the traits are {}",
+                known.join(", ")
+            ));
+        }
+        let num = |s: &str, what: &str| match s.parse::<f64>() {
+            Ok(x) if x.is_finite() && x >= 0.0 => Ok(x),
+            _ => Err(format!(
+                "the {what} of {trait_id} must be a number ≥ 0, got {s:?}"
+            )),
+        };
+        let need = num(amount, "need")?;
+        let spec = match sd {
+            Some(sd) => NeedSpec::Uncertain(UncertainNeedSpec {
+                need,
+                sd: Some(num(&sd, "sd")?),
+            }),
+            None => NeedSpec::Certain(need),
+        };
+        if needs.insert(trait_id.to_string(), spec).is_some() {
+            return Err(format!("{trait_id} is given twice"));
+        }
+    }
+    if needs.is_empty() {
+        return Err("give at least one need, e.g. water 3000".into());
+    }
+    Ok(needs)
 }
 
 /// The log's shape of a proposed move.

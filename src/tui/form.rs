@@ -18,6 +18,7 @@ use super::theme::Theme;
 pub enum FormKind {
     Lost,
     AddUnit,
+    AddTask,
     Rerate,
     ChangeNeed,
     CloseTask,
@@ -33,6 +34,7 @@ impl FormKind {
         match self {
             FormKind::Lost => "Mark a unit lost",
             FormKind::AddUnit => "Add a unit (arrives in reserve)",
+            FormKind::AddTask => "Open a new task",
             FormKind::Rerate => "Re-rate a unit",
             FormKind::ChangeNeed => "Change a need",
             FormKind::CloseTask => "Close a task",
@@ -272,7 +274,8 @@ pub fn render(form: &Form, theme: &Theme, frame: &mut Frame, area: Rect) {
     let popup = area.centered(Constraint::Length(w), Constraint::Length(h));
     frame.render_widget(Clear, popup);
     frame.render_widget(
-        Paragraph::new(lines).block(Block::bordered().title(format!(" {} ", form.kind.title()))),
+        Paragraph::new(super::format::clean_lines(lines))
+            .block(Block::bordered().title(format!(" {} ", form.kind.title()))),
         popup,
     );
     if let Some((x, y)) = cursor_at {

@@ -1,18 +1,25 @@
 //! Number formatting shared by the panels: amounts in their trait's own
 //! unit, bars of eighths. Odds are written by `odds::text`, as everywhere.
 
+use ratatui::text::Line;
+
 /// An amount with a sensible number of digits.
 pub fn amount(x: f64) -> String {
     if !x.is_finite() {
         return if x > 0.0 { "∞".into() } else { "-∞".into() };
     }
     let a = x.abs();
-    if a >= 100.0 || a == 0.0 {
+    let s = if a >= 100.0 || a == 0.0 {
         format!("{x:.0}")
     } else if a >= 10.0 {
         format!("{x:.1}")
     } else {
         format!("{x:.2}")
+    };
+    // -0.0, or a tiny negative rounded to zero, is written without a sign.
+    match s.strip_prefix('-') {
+        Some(rest) if rest.chars().all(|c| c == '0' || c == '.') => rest.to_string(),
+        _ => s,
     }
 }
 
@@ -87,6 +94,29 @@ pub fn pad(s: &str, width: usize) -> String {
     format!("{cut}{}", " ".repeat(width - n))
 }
 
+/// Text from outside (a label, a note, a reason, an actor) as the screen
+/// may show it: control characters escaped (`\u{1b}`), see `clean`.
+pub fn shown(s: &str) -> std::borrow::Cow<'_, str> {
+    crate::clean::clean(s)
+}
+
+/// Every span of `lines` with its control characters escaped: each panel
+/// passes what it draws through here, so nothing from a file or a feed
+/// reaches the terminal raw. Spans without one are kept as they are.
+pub fn clean_lines<'a>(lines: Vec<Line<'a>>) -> Vec<Line<'a>> {
+    lines.into_iter().map(clean_line).collect()
+}
+
+/// One line's spans with their control characters escaped.
+pub fn clean_line(mut line: Line<'_>) -> Line<'_> {
+    for span in &mut line.spans {
+        if let std::borrow::Cow::Owned(s) = crate::clean::clean(&span.content) {
+            span.content = s.into();
+        }
+    }
+    line
+}
+
 /// "1 move", "3 moves": a count with its noun in the right number.
 pub fn count(n: usize, singular: &str, plural: &str) -> String {
     if n == 1 {
@@ -114,6 +144,9 @@ mod tests {
         assert_eq!(signed_amount(800.0), "+800");
         assert_eq!(signed_amount(-1200.4), "-1200");
         assert_eq!(signed_amount(0.25), "+0.25");
+        assert_eq!(amount(-0.0), "0");
+        assert_eq!(amount(-0.001), "0.00");
+        assert_eq!(signed_amount(-0.0), "+0");
         assert_eq!(pad("abcdef", 4), "abc…");
         assert_eq!(pad("ab", 4), "ab  ");
         assert_eq!(keep_percent("98.1 % < 99.0 %"), "98.1\u{a0}% < 99.0\u{a0}%");

@@ -4,6 +4,7 @@
 //! (200 ms).
 
 use std::path::PathBuf;
+use std::sync::atomic::Ordering;
 use std::time::Duration;
 
 use super::app::AppState;
@@ -21,8 +22,15 @@ pub struct Launch {
     pub follow: Option<(PathBuf, u64)>,
 }
 
+/// The dashboard was stopped by this signal; the terminal is restored. The
+/// command line exits 128 + its number.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, thiserror::Error)]
+#[error("stopped by signal {0}")]
+pub struct Signalled(pub i32);
+
 /// Runs the dashboard until quit. The panic hook is installed before the
-/// terminal is touched.
+/// terminal is touched. A run ended by SIGTERM, SIGHUP or SIGINT restores
+/// the terminal and returns [`Signalled`].
 pub fn run(mut state: AppState, launch: Launch) -> anyhow::Result<()> {
     terminal::install_panic_hook();
     let rt = tokio::runtime::Builder::new_multi_thread()
@@ -30,16 +38,21 @@ pub fn run(mut state: AppState, launch: Launch) -> anyhow::Result<()> {
         .enable_all()
         .build()?;
     let mut tty = terminal::enter()?;
-    let result = rt.block_on(async {
+    let (result, signal) = rt.block_on(async {
         let mut runtime = Runtime::new(launch.planner);
         runtime.log = launch.log;
         runtime.advisor = launch.advisor;
         runtime.spawn_sources();
         runtime.follow = launch.follow;
-        runtime.run(&mut tty, &mut state).await
+        let result = runtime.run(&mut tty, &mut state).await;
+        (result, runtime.signalled.load(Ordering::SeqCst))
     });
     terminal::restore();
     // A re-plan thread may still be winding down after its cancel flag.
     rt.shutdown_timeout(Duration::from_millis(300));
-    result.map_err(anyhow::Error::from)
+    result.map_err(anyhow::Error::from)?;
+    if signal != 0 {
+        return Err(Signalled(signal).into());
+    }
+    Ok(())
 }

@@ -21,6 +21,7 @@ pub fn keys(mode: Mode) -> Vec<(&'static str, &'static str)> {
             ("x", "reject the proposal"),
             ("l", "mark a unit lost, with a reason"),
             ("a", "add a unit (id, type, optional rating)"),
+            ("o", "open a new task (id, label, tier, needs, limits)"),
             ("r", "re-rate a unit's trait (mean, sd)"),
             ("n", "change a need of the selected task"),
             ("c", "close the selected task with its outcome"),
@@ -39,7 +40,10 @@ pub fn keys(mode: Mode) -> Vec<(&'static str, &'static str)> {
         ]),
     }
     k.extend([
-        ("Esc", "close a form or this help"),
+        (
+            "Esc",
+            "close a form or this help (any key above works from here)",
+        ),
         ("?", "this help"),
         ("q  Ctrl-C", "quit (everything is already in the log)"),
     ]);

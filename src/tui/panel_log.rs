@@ -28,7 +28,16 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     ));
     let inner = block.inner(area);
     frame.render_widget(block, area);
-    let spark_h = if inner.height >= 8 { 2 } else { 1 };
+    // A sparkline of one point, or of nothing but zeros, draws blank rows:
+    // the rows go to the list until there is a history to show.
+    let history = &state.worst_history;
+    let spark_h = if history.len() < 2 || history.iter().all(|p| *p <= 0.0) {
+        0
+    } else if inner.height >= 8 {
+        2
+    } else {
+        1
+    };
     let [spark_area, list_area] =
         Layout::vertical([Constraint::Length(spark_h), Constraint::Fill(1)]).areas(inner);
     let points = spark_points(&state.worst_history, spark_area.width as usize);
@@ -40,19 +49,35 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
         spark_area,
     );
     let w = list_area.width as usize;
+    let shown_lines = list_area.height as usize;
+    // The actor whole (up to 12 cells): who wrote it matters at 3 a.m.
+    let by_w = state
+        .recent
+        .iter()
+        .rev()
+        .take(shown_lines)
+        .map(|l| super::format::shown(&l.by).chars().count())
+        .max()
+        .unwrap_or(2)
+        .clamp(2, 12);
     let lines: Vec<Line> = state
         .recent
         .iter()
         .rev()
-        .take(list_area.height as usize)
+        .take(shown_lines)
         .map(|l| {
-            let head = format!("#{:<4} {} {:<5} ", l.seq, l.at, fit(&l.by, 5));
+            let head = format!(
+                "#{:<4} {} {:<by_w$} ",
+                l.seq,
+                l.at,
+                fit(&super::format::shown(&l.by), by_w)
+            );
             let rest = w.saturating_sub(head.chars().count());
             Line::from(vec![
                 Span::styled(head, th.dim()),
-                Span::raw(fit(&l.text, rest)),
+                Span::raw(fit(&super::format::shown(&l.text), rest)),
             ])
         })
         .collect();
-    frame.render_widget(Paragraph::new(lines), list_area);
+    frame.render_widget(Paragraph::new(super::format::clean_lines(lines)), list_area);
 }

@@ -111,6 +111,58 @@ pub fn advice_lines(state: &AppState) -> Vec<(NoteLevel, String)> {
     lines
 }
 
+/// The caution for a panel `width` cells wide (inside the border).
+fn caution(width: u16) -> &'static str {
+    if width >= 56 {
+        safety::CAUTION_SCREEN
+    } else {
+        safety::CAUTION_SHORT
+    }
+}
+
+/// Rows `s` takes when wrapped at word boundaries to `width` cells (as the
+/// panel's `Wrap` does; a word longer than the row is cut across rows).
+fn wrapped_rows(s: &str, width: usize) -> usize {
+    let mut rows = 1;
+    let mut used = 0;
+    for word in s.split(' ') {
+        let n = word.chars().count();
+        let need = if used == 0 { n } else { used + 1 + n };
+        if need <= width {
+            used = need;
+        } else {
+            rows += usize::from(used > 0);
+            rows += n.saturating_sub(1) / width;
+            // The last row of the word: full when it ends on the edge.
+            used = match n % width {
+                0 if n > 0 => width,
+                r => r,
+            };
+        }
+    }
+    rows
+}
+
+/// Rows (borders included) the panel wants at `width` (outside the
+/// border): every note and advice line wrapped, and the caution.
+pub fn rows_wanted(state: &AppState, width: u16) -> u16 {
+    let inner = width.saturating_sub(2).max(1) as usize;
+    let wrapped = |s: &str| wrapped_rows(s, inner);
+    let notes = contextual(state);
+    let mut rows: usize = if notes.is_empty() {
+        1
+    } else {
+        notes.iter().map(|n| wrapped(&format!("! {n}"))).sum()
+    };
+    rows += advice_lines(state)
+        .iter()
+        .map(|(_, t)| wrapped(t))
+        .sum::<usize>();
+    let caution = caution(width.saturating_sub(2));
+    let caution_rows = (caution.chars().count() / inner + 1).clamp(2, 5);
+    (rows + caution_rows + 2).min(u16::MAX as usize) as u16
+}
+
 pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let th = &state.theme;
     let notes = contextual(state);
@@ -123,11 +175,7 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let inner = block.inner(area);
     frame.render_widget(block, area);
     // The caution keeps its rows whatever the height.
-    let caution = if inner.width >= 56 {
-        safety::CAUTION_SCREEN
-    } else {
-        safety::CAUTION_SHORT
-    };
+    let caution = caution(inner.width);
     let caution_rows = (caution.chars().count() as u16 / inner.width.max(1) + 1).clamp(2, 5);
     let [notes_area, caution_area] =
         Layout::vertical([Constraint::Fill(1), Constraint::Length(caution_rows)]).areas(inner);
@@ -148,9 +196,27 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
         };
         Line::styled(keep_percent(&text), style)
     }));
-    frame.render_widget(Paragraph::new(lines).wrap(Wrap { trim: true }), notes_area);
+    frame.render_widget(
+        Paragraph::new(super::format::clean_lines(lines)).wrap(Wrap { trim: true }),
+        notes_area,
+    );
     frame.render_widget(
         Paragraph::new(Line::styled(caution, th.dim())).wrap(Wrap { trim: true }),
         caution_area,
     );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::wrapped_rows;
+
+    // Counted by hand: greedy word wrap as ratatui's `Wrap` lays it out.
+    #[test]
+    fn rows_of_wrapped_text() {
+        assert_eq!(wrapped_rows("aaa bbb ccc", 7), 2); // "aaa bbb" / "ccc"
+        assert_eq!(wrapped_rows("aaa bbb ccc", 3), 3);
+        assert_eq!(wrapped_rows("abcdefgh", 3), 3); // "abc" / "def" / "gh"
+        assert_eq!(wrapped_rows("abcdef x", 3), 3); // "abc" / "def" / "x"
+        assert_eq!(wrapped_rows("", 10), 1);
+    }
 }

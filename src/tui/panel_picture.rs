@@ -18,7 +18,7 @@ use ratatui::widgets::{Block, Paragraph};
 
 use super::app::AppState;
 use super::board::tier_heading;
-use super::format::{amount, signed_amount, z_value};
+use super::format::{amount, shown, signed_amount, z_value};
 use crate::odds::text::{Detail, odds_text, pct_ln};
 use crate::odds::{ForcedZero, Regime, TraitOdds};
 
@@ -127,10 +127,23 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
     out.push(Line::from(vec![
         Span::raw("binding trait: "),
         Span::styled(
-            format!("{} ({}, {})", tr.id, tr.label, tr.unit),
+            format!("{} ({}, {})", tr.id, shown(&tr.label), shown(&tr.unit)),
             th.heading(),
         ),
     ]));
+    if o.forced_zero == Some(ForcedZero::NoUnits) {
+        // No capability to describe: the need and what it takes.
+        out.push(Line::raw(format!(
+            "need {} {} · no capability on it",
+            amount(b.need),
+            shown(&tr.unit)
+        )));
+        out.push(Line::styled(
+            "No units on this task: its odds are 0 until units are placed.",
+            th.poor(),
+        ));
+        return out;
+    }
     let need = if b.need_sd > 0.0 {
         format!(
             "need {} ± {} · margin spread ± {}",
@@ -160,13 +173,6 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
             th.dim(),
         ));
     }
-    if o.forced_zero == Some(ForcedZero::NoUnits) {
-        out.push(Line::styled(
-            "No units on this task: its odds are 0 until units are placed.",
-            th.poor(),
-        ));
-        return out;
-    }
     if o.forced_zero == Some(ForcedZero::BelowMinimum) {
         out.push(Line::styled(
             format!(
@@ -189,12 +195,19 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
         ),
     };
     out.push(Line::styled(reading, th.heading()));
-    // Rows already used (lines wrap), plus axis, labels and a legend row.
-    let used: usize = out
-        .iter()
-        .map(|l| l.width().div_ceil(width.max(1)).max(1))
-        .sum();
-    let reserved = used + 3;
+    let legend = format!(
+        "solid: capability at or above the need = odds {}; light: below{}",
+        odds_text(b.ln_odds, b.ln_fail, Detail::Full),
+        if b.need_sd > 0.0 {
+            " (curve drawn with the margin spread)"
+        } else {
+            ""
+        }
+    );
+    // Rows already used (lines wrap), plus axis, labels and the legend.
+    let rows_of = |w: usize| w.div_ceil(width.max(1)).max(1);
+    let used: usize = out.iter().map(|l| rows_of(l.width())).sum();
+    let reserved = used + 2 + rows_of(legend.chars().count() + 2);
     let chart_h = height.saturating_sub(reserved).clamp(2, 12);
     let style = match o.regime() {
         Some(Regime::Gamble) => th.gamble(),
@@ -203,18 +216,7 @@ pub fn lines(state: &AppState, width: usize, height: usize) -> Vec<Line<'static>
     for row in chart(b, width, chart_h) {
         out.push(Line::styled(row, style));
     }
-    out.push(Line::styled(
-        format!(
-            "solid: capability at or above the need = odds {}; light: below{}",
-            pct_ln(b.ln_odds),
-            if b.need_sd > 0.0 {
-                " (curve drawn with the margin spread)"
-            } else {
-                ""
-            }
-        ),
-        th.dim(),
-    ));
+    out.push(Line::styled(legend, th.dim()));
     out
 }
 
@@ -225,7 +227,7 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
             format!(
                 " {} · {} · {} ",
                 task.id,
-                task.label,
+                super::format::shown(&task.label),
                 tier_heading(task.tier).to_lowercase()
             )
         }
@@ -235,7 +237,7 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let inner = block.inner(area);
     let lines = lines(state, inner.width as usize, inner.height as usize);
     frame.render_widget(
-        Paragraph::new(lines)
+        Paragraph::new(super::format::clean_lines(lines))
             .block(block)
             .wrap(ratatui::widgets::Wrap { trim: false }),
         area,

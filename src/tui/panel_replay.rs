@@ -72,7 +72,7 @@ pub fn lines(state: &AppState) -> Vec<Line<'static>> {
 
 pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     frame.render_widget(
-        Paragraph::new(lines(state))
+        Paragraph::new(super::format::clean_lines(lines(state)))
             .block(Block::bordered().title(" Replay · recommended vs done "))
             .wrap(Wrap { trim: false }),
         area,

@@ -15,14 +15,17 @@ use crate::odds::text::pct_ln;
 pub fn key_hint(mode: Mode) -> &'static str {
     match mode {
         Mode::Command => {
-            "y accept · x reject · l lost · a add · r rate · n need · m move · p pin · u undo · ? keys · q quit"
+            "y accept · x reject · l lost · a unit · o task · r rate · n need · m move · p pin · u undo · ? keys · q quit"
         }
         Mode::Watch => "↑↓ task · PgUp/PgDn units · ? help · q quit · read-only",
         Mode::Replay => "←→ step · Home/End · g go to · space play · +/- speed · ? help · q quit",
     }
 }
 
-/// What the re-plan is doing, in words.
+/// What the re-plan is doing, in words. The status line shows it whole up
+/// to 3/5 of its width: the place for the search's progress and its bound
+/// (how far the best plan found may be from the best there is) as the
+/// solver reports them.
 pub fn plan_words(state: &AppState) -> String {
     let worst = |state: &AppState| {
         state
@@ -79,10 +82,14 @@ pub fn render_header(state: &AppState, frame: &mut Frame, area: Rect) {
         }
         None => "no open task".into(),
     };
+    // The incident's name gives way to the worst task, whose id is whole.
+    let mode = format!(" {} ", state.mode.word());
+    let fixed = 11 + mode.chars().count() + seq.chars().count() + 3 + worst.chars().count();
+    let name_w = (area.width as usize).saturating_sub(fixed).clamp(8, 40);
     let line = Line::from(vec![
         Span::styled(" oddsboard ", th.selected()),
-        Span::styled(format!(" {} ", state.mode.word()), th.accent()),
-        Span::styled(fit(&inc.name, 40), th.heading()),
+        Span::styled(mode, th.accent()),
+        Span::styled(fit(&super::format::shown(&inc.name), name_w), th.heading()),
         Span::raw(seq),
         Span::raw(" · "),
         Span::raw(worst),
@@ -106,9 +113,13 @@ pub fn render_status(state: &AppState, frame: &mut Frame, area: Rect) {
             th.dim(),
         ),
     };
-    frame.render_widget(Paragraph::new(left_line), left);
+    frame.render_widget(Paragraph::new(super::format::clean_line(left_line)), left);
     frame.render_widget(
-        Paragraph::new(Line::styled(plan, th.accent())).right_aligned(),
+        Paragraph::new(Line::styled(
+            super::format::shown(&plan).into_owned(),
+            th.accent(),
+        ))
+        .right_aligned(),
         right,
     );
 }

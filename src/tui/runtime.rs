@@ -44,6 +44,10 @@ pub struct Runtime {
     /// read up to. Polled on every tick and right after each append, so
     /// records are applied in log order whoever wrote them.
     pub follow: Option<(std::path::PathBuf, u64)>,
+    /// The number of the signal (SIGTERM, SIGHUP, SIGINT) that ended the
+    /// run, 0 when none did: the process then exits 128 + it, as shells
+    /// expect of a program stopped by a signal.
+    pub signalled: Arc<std::sync::atomic::AtomicI32>,
 }
 
 /// Appends events to the incident log, synced before it returns.
@@ -69,6 +73,7 @@ impl Runtime {
             advising: None,
             log: None,
             follow: None,
+            signalled: Arc::new(std::sync::atomic::AtomicI32::new(0)),
         }
     }
 
@@ -242,11 +247,24 @@ impl Runtime {
         #[cfg(unix)]
         {
             use tokio::signal::unix::{SignalKind, signal};
-            for kind in [SignalKind::terminate(), SignalKind::hangup()] {
+            // SIGINT too: Ctrl-C in raw mode is a key, but `kill -INT` is not.
+            for (kind, number) in [
+                (SignalKind::terminate(), libc::SIGTERM),
+                (SignalKind::hangup(), libc::SIGHUP),
+                (SignalKind::interrupt(), libc::SIGINT),
+            ] {
                 let tx = self.tx.clone();
+                let signalled = self.signalled.clone();
                 if let Ok(mut sig) = signal(kind) {
                     tokio::spawn(async move {
                         if sig.recv().await.is_some() {
+                            // The first signal names the exit code.
+                            let _ = signalled.compare_exchange(
+                                0,
+                                number,
+                                Ordering::SeqCst,
+                                Ordering::SeqCst,
+                            );
                             let _ = tx.send(AppEvent::Shutdown);
                         }
                     });

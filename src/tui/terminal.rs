@@ -1,6 +1,6 @@
 //! Terminal setup and restore. The panic hook is installed before the
 //! terminal is touched, so a panic anywhere leaves a usable shell; quit and
-//! SIGTERM/SIGHUP restore through the same [`restore`].
+//! SIGTERM/SIGHUP/SIGINT restore through the same [`restore`].
 
 use std::io::{Stdout, stdout};
 

@@ -33,13 +33,18 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     panel_status::render_header(state, frame, header);
     panel_status::render_status(state, frame, status);
 
-    let left_pct = match area.width {
-        0..130 => 62,
-        130..160 => 56,
-        _ => 52,
+    // The task board is as wide as its rows want (labels whole), within a
+    // share of the screen that leaves the right column room for the
+    // picture and the notes.
+    let max_pct: u16 = match area.width {
+        0..130 => 68,
+        130..180 => 64,
+        _ => 60,
     };
+    let wanted = (panel_tasks::wanted_width(state) + 2).min(u16::MAX as usize) as u16;
+    let left_w = wanted.clamp(area.width / 2, area.width * max_pct / 100);
     let [left, right] =
-        Layout::horizontal([Constraint::Percentage(left_pct), Constraint::Fill(1)]).areas(body);
+        Layout::horizontal([Constraint::Length(left_w), Constraint::Fill(1)]).areas(body);
     // The task board takes what it needs (up to two thirds), the units the rest.
     let board_lines = panel_tasks::lines(state, left.width.saturating_sub(2) as usize)
         .0
@@ -50,15 +55,25 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     panel_tasks::render(state, frame, tasks);
     panel_units::render(state, frame, units);
 
-    let (picture_h, log) = match body.height {
-        // The trainer's panel needs room more than the picture does.
-        _ if state.replay.is_some() && body.height < 45 => (11, Constraint::Fill(1)),
-        0..36 => (12, Constraint::Length(6)),
-        36..50 => (14, Constraint::Fill(1)),
-        _ => (18, Constraint::Fill(1)),
+    // The safety notes come before the log and the trainer's panel: these
+    // keep a minimum, the notes take what their text needs of the rest.
+    let (picture_h, log_min) = match body.height {
+        0..36 if state.replay.is_some() => (8, 8),
+        _ if state.replay.is_some() && body.height < 45 => (11, 12),
+        0..36 => (8, 4),
+        36..50 => (14, 6),
+        _ => (20, 8),
     };
-    let [picture, notes, log] =
-        Layout::vertical([Constraint::Length(picture_h), Constraint::Fill(1), log]).areas(right);
+    // The notes take the rows their text needs (up to what leaves the log
+    // its minimum), the log the rest.
+    let notes_room = body.height.saturating_sub(picture_h + log_min);
+    let notes_h = panel_notes::rows_wanted(state, right.width).clamp(6.min(notes_room), notes_room);
+    let [picture, notes, log] = Layout::vertical([
+        Constraint::Length(picture_h),
+        Constraint::Length(notes_h),
+        Constraint::Fill(1),
+    ])
+    .areas(right);
     panel_picture::render(state, frame, picture);
     panel_notes::render(state, frame, notes);
     if state.replay.is_some() {

@@ -47,6 +47,7 @@
 //! ```
 
 pub mod advise;
+pub mod clean;
 pub mod log;
 pub mod model;
 pub mod odds;

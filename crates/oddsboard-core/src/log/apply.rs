@@ -16,11 +16,11 @@ use crate::rules;
 /// Why an event does not apply to the state.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum ApplyError {
-    #[error("unknown unit `{0}`")]
+    #[error("unknown unit `{}`", crate::clean::clean(.0))]
     UnknownUnit(String),
-    #[error("unknown task `{0}`")]
+    #[error("unknown task `{}`", crate::clean::clean(.0))]
     UnknownTask(String),
-    #[error("unknown trait `{0}` (not defined in the incident)")]
+    #[error("unknown trait `{}` (not defined in the incident)", crate::clean::clean(.0))]
     UnknownTrait(String),
     /// A field with a value the event cannot take.
     #[error("{field}: {message}")]
@@ -149,10 +149,10 @@ pub fn apply(state: &mut Incident, event: &Event) -> Result<(), ApplyError> {
             Ok(())
         }
         Event::UnitAdded { unit } => {
-            if unit.id.trim().is_empty() {
+            if let Some(message) = crate::clean::id_problem(&unit.id) {
                 return Err(ApplyError::BadField {
                     field: "unit.id".into(),
-                    message: "must not be empty".into(),
+                    message,
                 });
             }
             if state.unit_idx(&unit.id).is_some() {
@@ -210,10 +210,10 @@ pub fn apply(state: &mut Incident, event: &Event) -> Result<(), ApplyError> {
             Ok(())
         }
         Event::TaskAdded { task } => {
-            if task.id.trim().is_empty() {
+            if let Some(message) = crate::clean::id_problem(&task.id) {
                 return Err(ApplyError::BadField {
                     field: "task.id".into(),
-                    message: "must not be empty".into(),
+                    message,
                 });
             }
             if state.task_idx(&task.id).is_some() {

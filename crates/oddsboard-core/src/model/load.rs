@@ -555,8 +555,8 @@ type Seen = BTreeMap<String, String>;
 
 fn check_id(sink: &mut Sink, element: &str, id: &str, seen: &mut Seen, what: &str) {
     let path = format!("{element}.id");
-    if id.trim().is_empty() {
-        sink.error(path, format!("{what} id must not be empty"));
+    if let Some(problem) = crate::clean::id_problem(id) {
+        sink.error(path, format!("{what} id {problem}"));
     } else if let Some(first) = seen.get(id) {
         sink.error(
             path,

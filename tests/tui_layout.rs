@@ -1,0 +1,152 @@
+//! The board at the three sizes it is designed for (100×30, 140×45,
+//! 200×60) on every bundled sample (all invented), as insta snapshots; and
+//! the rule that a task id is never cut, whatever the width.
+
+mod tui_common;
+
+use insta::assert_snapshot;
+use oddsboard::model::{Incident, parse_incident_str};
+use oddsboard::tui::Mode;
+use tui_common::{draw, state};
+
+const SAMPLES: [(&str, &str); 3] = [
+    (
+        "warehouse-fire",
+        include_str!("../sample-incidents/warehouse-fire.yaml"),
+    ),
+    (
+        "river-flood",
+        include_str!("../sample-incidents/river-flood.yaml"),
+    ),
+    (
+        "building-collapse",
+        include_str!("../sample-incidents/building-collapse.yaml"),
+    ),
+];
+
+const SIZES: [(u16, u16); 3] = [(100, 30), (140, 45), (200, 60)];
+
+fn sample(text: &str, name: &str) -> Incident {
+    parse_incident_str(text, name).unwrap_or_else(|e| panic!("{name}: {e}"))
+}
+
+fn rows(b: &ratatui::backend::TestBackend) -> Vec<String> {
+    let buf = b.buffer();
+    (0..buf.area.height)
+        .map(|y| (0..buf.area.width).map(|x| buf[(x, y)].symbol()).collect())
+        .collect()
+}
+
+#[test]
+fn every_sample_at_every_size() {
+    for (name, text) in SAMPLES {
+        let s = state(Mode::Watch, sample(text, name));
+        for (w, h) in SIZES {
+            assert_snapshot!(format!("{name}_{w}x{h}"), draw(&s, w, h));
+        }
+    }
+}
+
+/// Every task id appears whole on its row of the board, at the smallest
+/// size and for an id longer than any sample's.
+#[test]
+fn no_task_id_is_cut_at_100x30() {
+    let long = tui_common::DRILL
+        .replace("  - id: T1\n", "  - id: interior-search-east-wing-level-2\n")
+        .replace(
+            "placement: { E1: T1, E2: T1,",
+            "placement: { E1: interior-search-east-wing-level-2, E2: interior-search-east-wing-level-2,",
+        );
+    let mut incidents: Vec<(String, Incident)> = SAMPLES
+        .iter()
+        .map(|(n, t)| (n.to_string(), sample(t, n)))
+        .collect();
+    incidents.push(("long id".into(), sample(&long, "long.yaml")));
+    for (name, inc) in incidents {
+        let ids: Vec<String> = inc.tasks.iter().map(|t| t.id.clone()).collect();
+        let mut s = state(Mode::Command, inc);
+        for (pos, _) in s.task_order().iter().enumerate() {
+            s.selected = pos;
+            let screen = rows(&draw(&s, 100, 30));
+            for id in &ids {
+                // On a board row: the id followed by a space, after the
+                // row's marker.
+                let whole = screen
+                    .iter()
+                    .any(|r| r.contains(&format!("▸ {id} ")) || r.contains(&format!("  {id} ")));
+                assert!(
+                    whole,
+                    "{name}: task id {id} cut at 100×30:\n{}",
+                    screen.join("\n")
+                );
+            }
+            // The header names the worst open task whole too.
+            if let Some(t) = oddsboard::tui::board::worst_open(&s.incident, &s.ground) {
+                let id = &s.incident.tasks[t].id;
+                assert!(
+                    screen[0].contains(&format!("worst task {id} ")),
+                    "{name}: header cuts {id}: {}",
+                    screen[0]
+                );
+            }
+        }
+    }
+}
+
+/// The numbers of a task row (odds, units, the proposal's change) fit at
+/// 100×30: each row ends inside the panel with its unit count whole.
+#[test]
+fn task_rows_keep_their_numbers_at_100x30() {
+    for (name, text) in SAMPLES {
+        let s = state(Mode::Watch, sample(text, name));
+        let screen = rows(&draw(&s, 100, 30));
+        for t in &s.incident.tasks {
+            if !t.is_open() {
+                continue;
+            }
+            let row = screen
+                .iter()
+                .find(|r| {
+                    r.contains(&format!("  {} ", t.id)) || r.contains(&format!("▸ {} ", t.id))
+                })
+                .unwrap_or_else(|| panic!("{name}: no row for {}", t.id));
+            assert!(row.contains(" %"), "{name}: {row}");
+            assert!(
+                row.split('│')
+                    .nth(1)
+                    .is_some_and(|cell| cell.trim_end().ends_with('u')),
+                "{name}: the unit count is cut: {row}"
+            );
+        }
+    }
+}
+
+/// The add-task form over the board at the smallest size, with an error
+/// under the needs field.
+#[test]
+fn add_task_form_at_100x30() {
+    use oddsboard::tui::app::{AppEvent, update};
+    use ratatui::crossterm::event::{KeyCode, KeyEvent};
+    let mut s = state(Mode::Command, tui_common::drill());
+    let key = |s: &mut oddsboard::tui::AppState, c: KeyCode| {
+        update(s, AppEvent::Key(KeyEvent::from(c)));
+    };
+    key(&mut s, KeyCode::Char('o'));
+    for (text, enter) in [
+        ("search-annex", true),
+        ("Search the annex offices", true),
+        ("life", true),
+        ("crew 4", true),
+    ] {
+        for c in text.chars() {
+            key(&mut s, KeyCode::Char(c));
+        }
+        if enter {
+            key(&mut s, KeyCode::Enter);
+        }
+    }
+    for _ in 0..3 {
+        key(&mut s, KeyCode::Enter);
+    }
+    assert_snapshot!(draw(&s, 100, 30));
+}
