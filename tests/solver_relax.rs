@@ -434,3 +434,77 @@ fn bounds_cover_longer_runs_on_benchmark_incidents() {
         assert!(o >= long.key.min_odds() * (1.0 - 1e-9));
     }
 }
+
+/// `plan --json` carries `bounds`: one object per tier with open tasks, in
+/// the trade's order, each with `tier`, `worst_odds` (the plan's, as in
+/// `tasks`) and `upper_bound` (a number at least the worst, or null); the
+/// overall `upper_bound` is at least `min_odds`. The text report shows the
+/// gap through the one odds formatter.
+#[test]
+fn plan_json_has_bounds_per_tier() {
+    use assert_cmd::Command;
+    let text = r#"
+incident: { name: Invented bound drill }
+traits: [ { id: water, unit: L/min } ]
+unit_types:
+  - { id: engine, traits: { water: { mean: 1900, sd: 250 } } }
+  - { id: tender, traits: { water: { mean: 1200, sd: 600 } } }
+units:
+  - { id: E1, type: engine }
+  - { id: E2, type: engine }
+  - { id: W1, type: tender }
+  - { id: W2, type: tender }
+tasks:
+  - { id: T1, tier: life, needs: { water: 2500 } }
+  - { id: T2, tier: stabilization, needs: { water: 2600 } }
+  - { id: T3, tier: property, needs: { water: 1500 } }
+"#;
+    let dir = tempfile::tempdir().expect("temp dir");
+    let path = dir.path().join("drill.yaml");
+    std::fs::write(&path, text).expect("write");
+    let out = Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args(["plan", path.to_str().expect("path"), "--json"])
+        .output()
+        .expect("runs");
+    assert!(out.status.success());
+    let doc: serde_json::Value = serde_json::from_slice(&out.stdout).expect("one JSON document");
+    let bounds = doc["bounds"].as_array().expect("bounds is an array");
+    let tiers: Vec<&str> = bounds
+        .iter()
+        .map(|b| b["tier"].as_str().expect("tier"))
+        .collect();
+    assert_eq!(tiers, ["life", "stabilization", "property"]);
+    let tasks = doc["tasks"].as_array().expect("tasks");
+    for b in bounds {
+        let obj = b.as_object().expect("object");
+        assert_eq!(obj.len(), 3, "tier, worst_odds, upper_bound: {b}");
+        let worst = b["worst_odds"].as_f64().expect("worst_odds");
+        let tier_worst = tasks
+            .iter()
+            .filter(|t| t["tier"] == b["tier"])
+            .map(|t| t["odds"].as_f64().expect("odds"))
+            .fold(1.0f64, f64::min);
+        assert!((worst - tier_worst).abs() < 1e-12, "{b}");
+        match &b["upper_bound"] {
+            serde_json::Value::Null => {}
+            u => {
+                let u = u.as_f64().expect("number or null");
+                assert!((worst * (1.0 - 1e-9)..=1.0).contains(&u), "{b}");
+            }
+        }
+    }
+    let overall = doc["upper_bound"].as_f64().expect("overall bound");
+    assert!(overall >= doc["min_odds"].as_f64().expect("min_odds") * (1.0 - 1e-9));
+
+    let text_out = Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args(["plan", path.to_str().expect("path")])
+        .output()
+        .expect("runs");
+    let stdout = String::from_utf8_lossy(&text_out.stdout);
+    assert!(
+        stdout.contains("Worst stabilization ") && stdout.contains("possible"),
+        "{stdout}"
+    );
+}

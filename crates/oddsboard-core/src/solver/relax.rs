@@ -74,6 +74,14 @@ impl TierBounds {
     pub fn get(&self, tier: Tier) -> Option<&TierBound> {
         self.tiers.iter().find(|b| b.tier == tier)
     }
+
+    /// The entry of the first tier whose worst odds are below its secure
+    /// level in `inc`, if any.
+    pub fn first_short(&self, inc: &Incident) -> Option<&TierBound> {
+        self.tiers
+            .iter()
+            .find(|b| b.worst_odds < inc.secure.get(b.tier))
+    }
 }
 
 /// Limits of [`tier_bounds`].
