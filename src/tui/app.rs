@@ -52,6 +52,7 @@ pub enum PlanStatus {
     Settled {
         elapsed: Duration,
         proven_optimal: bool,
+        bound: Option<crate::solver::relax::TierBound>,
     },
     /// The re-plan failed; the message says why.
     Failed(String),
@@ -226,6 +227,9 @@ pub struct PlanResult {
     pub placement: Placement,
     pub proven_optimal: bool,
     pub elapsed: Duration,
+    /// The first short tier's worst odds and how high they could go
+    /// (`solver::relax`); `None` when proven or not computed.
+    pub bound: Option<crate::solver::relax::TierBound>,
 }
 
 /// Work for the runtime; `update` never does it itself.
@@ -424,6 +428,7 @@ pub fn update(state: &mut AppState, event: AppEvent) -> Vec<Effect> {
                     state.plan_status = PlanStatus::Settled {
                         elapsed: plan.elapsed,
                         proven_optimal: plan.proven_optimal,
+                        bound: plan.bound,
                     };
                     // The settled recommendation goes to the log, so that a
                     // replay can set it beside what was done.
