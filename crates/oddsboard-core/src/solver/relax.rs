@@ -316,6 +316,10 @@ fn min_var_for_mean(items: &[(f64, f64, f64)], r: f64) -> Option<f64> {
     None
 }
 
+/// Largest relaxation handed to the solver (nonzeros of its matrix); above
+/// it the per-task bound stands alone.
+const MAX_NONZEROS: usize = 400_000;
+
 /// Sparse rows of the conic problem in Clarabel's form A·x + s = b.
 #[derive(Default)]
 struct Rows {
@@ -363,6 +367,9 @@ fn refute(prep: &Prep, reqs: &[Req], deadline: Instant) -> Verdict {
         }
     }
     let n_y = vars.len();
+    if n_y * (reqs.len() / tasks.len().max(1) + 3) > MAX_NONZEROS {
+        return Verdict::NotRefuted;
+    }
     let n_u = reqs.iter().filter(|r| r.zeta < 0.0).count();
     let n_var = n_y + n_u;
 
@@ -568,6 +575,14 @@ fn refute(prep: &Prep, reqs: &[Req], deadline: Instant) -> Verdict {
         // Nothing can move: the rows are constants.
         return Verdict::NotRefuted;
     }
+    // Numbers the solver cannot take (needs of 1e300 square to ∞) or a
+    // problem too large for the time: no refutation, the per-task bound
+    // stays.
+    if all_rows.v.len() > MAX_NONZEROS
+        || !all_rows.v.iter().chain(&all_rows.b).all(|x| x.is_finite())
+    {
+        return Verdict::NotRefuted;
+    }
     let a = CscMatrix::new_from_triplets(m, n_var, all_rows.i, all_rows.j, all_rows.v);
     let p = CscMatrix::<f64>::zeros((n_var, n_var));
     let q = vec![0.0; n_var];
@@ -581,11 +596,14 @@ fn refute(prep: &Prep, reqs: &[Req], deadline: Instant) -> Verdict {
         max_iter: 100,
         ..DefaultSettings::default()
     };
-    let Ok(mut solver) = DefaultSolver::new(&p, &q, &a, &all_rows.b, &cones, settings) else {
-        return Verdict::NotRefuted;
-    };
-    solver.solve();
-    if solver.solution.status == SolverStatus::PrimalInfeasible {
+    // A panic inside the solver must not take the caller down: it counts as
+    // "not refuted".
+    let status = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        let mut solver = DefaultSolver::new(&p, &q, &a, &all_rows.b, &cones, settings).ok()?;
+        solver.solve();
+        Some(solver.solution.status)
+    }));
+    if matches!(status, Ok(Some(SolverStatus::PrimalInfeasible))) {
         Verdict::Infeasible
     } else {
         Verdict::NotRefuted
@@ -655,10 +673,17 @@ pub fn tier_bounds(
                 task_reqs(&prep, t, floor, &mut held);
             }
         }
+        // A NaN task bound (non-finite inputs) makes the tier's NaN too.
         let cheap = tasks
             .iter()
             .map(|t| prep.ln_task_ub[t.index()])
-            .fold(0.0f64, f64::min);
+            .fold(0.0f64, |a, b| {
+                if b.is_nan() || a.is_nan() {
+                    f64::NAN
+                } else {
+                    a.min(b)
+                }
+            });
         let ub = bisect(
             &prep,
             &tasks,
@@ -672,7 +697,8 @@ pub fn tier_bounds(
         out.push(TierBound {
             tier,
             worst_odds: w,
-            upper_bound: ub.map(|l| l.exp().min(1.0)),
+            // NaN (from inputs such as needs of 1e300) is no bound.
+            upper_bound: ub.map(|l| l.exp().min(1.0)).filter(|u| !u.is_nan()),
         });
     }
     out.sort_by_key(|b| b.tier.index());
@@ -702,6 +728,9 @@ fn bisect(
     deadline: Instant,
     cancel: &AtomicBool,
 ) -> Option<f64> {
+    if ln_cheap.is_nan() {
+        return None;
+    }
     if ln_cheap == f64::NEG_INFINITY {
         return Some(f64::NEG_INFINITY);
     }
