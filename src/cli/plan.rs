@@ -492,7 +492,7 @@ fn bound_lines(bounds: &TierBounds) -> String {
             None => "no bound known".to_string(),
         };
         out.push_str(&format!(
-            "  Worst {} {}, {cap}\n",
+            "    Worst {} {}, {cap}\n",
             b.tier.as_str(),
             pct(b.worst_odds)
         ));

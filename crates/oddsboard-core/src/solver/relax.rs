@@ -32,6 +32,10 @@
 //!   S_t the sum over every allowed unit of type t, so V ≤ L(y), linear, and
 //!   mean − need + |ζ|·u ≥ 0 with u² ≤ L(y) (a rotated cone).
 //!
+//! * Both sides: the trait's mean must reach need + ζ√V_lo (hedge) or
+//!   need − |ζ|·√L(all) (gamble), so the task holds at least the fewest
+//!   whole units whose means reach it (largest first): a count row.
+//!
 //! The cones go to Clarabel. Only its `PrimalInfeasible` status lowers a
 //! bound; any other outcome counts as "maybe feasible", so numerical trouble
 //! can only leave a bound weaker, never wrong.
@@ -316,6 +320,34 @@ fn min_var_for_mean(items: &[(f64, f64, f64)], r: f64) -> Option<f64> {
     None
 }
 
+/// The fewest whole units, largest means first, whose means add up to `r`:
+/// a count every set meeting the trait needs (integrality the fractional
+/// rows lack). `items` is (mean, n) in descending order of mean. `None`
+/// when even all of them fall short.
+fn min_count_for_mean(items: &[(f64, f64)], r: f64) -> Option<f64> {
+    // A hair below r, so rounding never asks one unit too many.
+    let mut left = r - 1e-9 * r.abs().max(1e-300);
+    if left <= 0.0 {
+        return Some(0.0);
+    }
+    let mut count = 0.0;
+    for &(m, n) in items {
+        if m <= 0.0 {
+            break;
+        }
+        let need = (left / m - 1e-9).ceil().max(1.0);
+        if need <= n {
+            return Some(count + need);
+        }
+        count += n;
+        left -= n * m;
+        if left <= 0.0 {
+            return Some(count);
+        }
+    }
+    None
+}
+
 /// Largest relaxation handed to the solver (nonzeros of its matrix); above
 /// it the per-task bound stands alone.
 const MAX_NONZEROS: usize = 400_000;
@@ -426,6 +458,24 @@ fn refute(prep: &Prep, reqs: &[Req], deadline: Instant) -> Verdict {
             .collect();
         let rating = |c: usize| inc.units[prep.classes[c].rep].ratings[k];
         let zeta = req.zeta;
+        let mut by_mean: Vec<(f64, f64)> = cls
+            .iter()
+            .map(|&(c, _)| (rating(c).mean, prep.classes[c].n))
+            .collect();
+        by_mean.sort_by(|a, b| b.0.total_cmp(&a.0));
+        let count_row = |lin: &mut Rows, r: f64| -> bool {
+            match min_count_for_mean(&by_mean, r) {
+                None => false,
+                Some(least) => {
+                    if least > 0.0 {
+                        let coefs: Vec<(usize, f64)> =
+                            cls.iter().map(|&(_, x)| (x, -1.0)).collect();
+                        lin.row(&coefs, -least);
+                    }
+                    true
+                }
+            }
+        };
         if zeta >= 0.0 {
             // V_lin and the fixed point V_lo.
             let v_fix: f64 = f.sd2_sum.iter().map(|row| row[k]).sum::<f64>() + need.sd * need.sd;
@@ -464,6 +514,9 @@ fn refute(prep: &Prep, reqs: &[Req], deadline: Instant) -> Verdict {
                 .map(|&(c, x)| (x, -rating(c).mean / scale))
                 .collect();
             lin.row(&coefs, (m_fix - need.need - zeta * v_lo.sqrt()) / scale);
+            if !count_row(&mut lin, need.need + zeta * v_lo.sqrt() - m_fix) {
+                return Verdict::Infeasible;
+            }
             // The chord of √V between V_lo and V_hi.
             if v_hi > v_lo && zeta > 0.0 {
                 let beta = 1.0 / (v_lo.sqrt() + v_hi.sqrt());
@@ -535,6 +588,17 @@ fn refute(prep: &Prep, reqs: &[Req], deadline: Instant) -> Verdict {
                     let s = rating(c).sd;
                     alpha.push((x, ((1.0 - rho) * s * s + rho * s_all * s) / (scale * scale)));
                 }
+            }
+            // Every set has V ≤ L(all), so mean ≥ need − |ζ|·√L(all).
+            let l_all = l_fix
+                + alpha
+                    .iter()
+                    .map(|&(x, a)| a * prep.classes[vars[x].0].n)
+                    .sum::<f64>()
+                    * scale
+                    * scale;
+            if !count_row(&mut lin, need.need + zeta * l_all.max(0.0).sqrt() - m_fix) {
+                return Verdict::Infeasible;
             }
             let l_fix = l_fix / (scale * scale);
             let mut coefs: Vec<(usize, f64)> = cls
