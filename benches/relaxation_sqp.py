@@ -24,12 +24,18 @@ min_odds oddsboard reports (an outside check of the odds engine).
 Sizes are kept mid-size: SLSQP with n·J share variables takes tens of
 seconds at 60 x 10 and far longer at 100 x 15.
 
+oddsboard's own valid bound (`upper_bound` of `plan --json`, from the conic
+relaxation of solver::relax; see docs/solver.md) is printed beside the SQP
+optimum, which is a local optimum of a non-convex problem and no bound.
+
 Usage: python3 benches/relaxation_sqp.py [path/to/oddsboard]
+(RELAX_SIZES=30x6x3,60x10x3 picks the sizes; default both)
 Needs: scipy, numpy, pyyaml (pip install scipy pyyaml).
 """
 
 import json
 import math
+import os
 import subprocess
 import sys
 import tempfile
@@ -41,7 +47,8 @@ from scipy.optimize import minimize
 from scipy.special import log_ndtr
 
 BIN = sys.argv[1] if len(sys.argv) > 1 else "target/release/oddsboard"
-SIZES = [(30, 6, 3), (60, 10, 3)]
+SIZES = [tuple(int(x) for x in s.split("x"))
+         for s in os.environ.get("RELAX_SIZES", "30x6x3,60x10x3").split(",")]
 SEEDS = [1, 2, 3]
 STARTS = 3
 
@@ -212,7 +219,7 @@ def relax_and_round(M, S, T, rho, tasks, rng):
 def main():
     rng = np.random.default_rng(0)
     print("size      seed  oddsboard worst (ln)  sqp rounded worst (ln)  relaxation (ln)  "
-          "odds ratio sqp/ob  time ob ms  time sqp ms  time ratio")
+          "odds ratio sqp/ob  time ob ms  time sqp ms  time ratio  ob bound  gap bound/ob")
     for (u, t, k) in SIZES:
         for seed in SEEDS:
             doc = load(u, t, k, seed)
@@ -240,7 +247,9 @@ def main():
             print(f"{u}x{t}x{k:<4} {seed:>4}  {math.exp(ob_ln):.4g} ({ob_ln:.2f})"
                   f"  {math.exp(sq_ln):.4g} ({sq_ln:.2f})  {relax_ln:.2f}"
                   f"  {ratio:.3g}  {plan['solve_ms']:.0f}  {sq_ms:.0f}"
-                  f"  {sq_ms / plan['solve_ms']:.2f}")
+                  f"  {sq_ms / plan['solve_ms']:.2f}"
+                  f"  {plan['upper_bound']:.4g}"
+                  f"  {plan['upper_bound'] / max(math.exp(ob_ln), 1e-300):.3g}")
 
 
 if __name__ == "__main__":

@@ -293,6 +293,7 @@ fn proposal_of_two_moves(b: &mut Bench) -> Vec<Event> {
             placement: p,
             proven_optimal: false,
             elapsed: Duration::from_millis(3),
+            bound: None,
         }),
     })
 }

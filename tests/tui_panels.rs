@@ -82,6 +82,7 @@ fn stale_solver_results_are_dropped() {
                 placement: other,
                 proven_optimal: true,
                 elapsed: Duration::from_millis(5),
+                bound: None,
             }),
         },
     );
@@ -151,6 +152,7 @@ fn replay_mid_way() {
             placement: p,
             proven_optimal: true,
             elapsed: Duration::from_millis(2),
+            bound: None,
         }),
     });
     b.key(KeyCode::Char('l'));

@@ -14,6 +14,7 @@ use crate::odds::joint::{
 use crate::odds::text::{pct, pct_detail};
 use crate::odds::view::{TaskView, placement_view, task_views, worst_by_tier};
 use crate::safety;
+use crate::solver::relax::{RelaxOptions, TierBounds, tier_bounds};
 use crate::solver::stable::{Disruption, Verdict, disruption, unit_disruption, verdict};
 use crate::solver::{Move, ObjectiveKey, SolveOptions, SolveReport, baselines, solve};
 use serde::Serialize;
@@ -97,6 +98,39 @@ struct CompareRow {
 }
 
 #[derive(Serialize)]
+struct BoundView {
+    tier: &'static str,
+    worst_odds: f64,
+    upper_bound: Option<f64>,
+}
+
+fn bound_views(bounds: &TierBounds) -> Vec<BoundView> {
+    bounds
+        .tiers
+        .iter()
+        .map(|b| BoundView {
+            tier: b.tier.as_str(),
+            worst_odds: b.worst_odds,
+            upper_bound: b.upper_bound,
+        })
+        .collect()
+}
+
+/// The overall bound: the solver's, lowered by the first tier's relaxation
+/// (both are valid, so the smaller is).
+fn overall_bound(report: &SolveReport, bounds: &TierBounds) -> Option<f64> {
+    match (report.upper_bound, bounds.overall) {
+        (Some(a), Some(b)) => Some(a.min(b)),
+        (a, b) => a.or(b),
+    }
+}
+
+/// Time for the tier bounds: half the solve budget, within 0.2–3 s.
+fn bound_time(budget_ms: u64) -> Duration {
+    Duration::from_millis((budget_ms / 2).clamp(200, 3000))
+}
+
+#[derive(Serialize)]
 struct PlanJson<'a> {
     incident: &'a str,
     placement: BTreeMap<String, Option<String>>,
@@ -114,6 +148,9 @@ struct PlanJson<'a> {
     joint_detail: Vec<JointDetailView>,
     proven_optimal: bool,
     upper_bound: Option<f64>,
+    /// Per tier with open tasks: the plan's worst odds and a bound on how
+    /// high they could go with the tiers above kept (docs/json-output.md).
+    bounds: Vec<BoundView>,
     solve_ms: f64,
     iterations: u64,
     stop: &'static str,
@@ -445,6 +482,31 @@ fn plan_notes(incident: &Incident, report: &SolveReport, after: &[TaskView]) -> 
     notes
 }
 
+/// "Worst stabilization 81.0 %, at most 93.0 % possible", one line per tier
+/// below its secure level, or "at most" unknown.
+fn bound_lines(bounds: &TierBounds) -> String {
+    let mut out = String::new();
+    for b in &bounds.tiers {
+        let cap = match b.upper_bound {
+            Some(u) => format!("at most {} possible", pct(u)),
+            None => "no bound known".to_string(),
+        };
+        out.push_str(&format!(
+            "    Worst {} {}, {cap}\n",
+            b.tier.as_str(),
+            pct(b.worst_odds)
+        ));
+    }
+    if !out.is_empty() {
+        out.insert_str(
+            0,
+            "  Bounds (with the tiers above kept at least where this plan has them):\n",
+        );
+        out.push('\n');
+    }
+    out
+}
+
 fn check_args(args: &Args) -> anyhow::Result<()> {
     if !(0.0..1.0).contains(&args.slack) || args.slack.is_nan() {
         anyhow::bail!("--slack: must be in [0, 1), got {}", args.slack);
@@ -480,6 +542,16 @@ pub fn run(args: Args) -> CliResult {
     let report = solve(&incident, &options, &cancel, &mut |_| {});
     drop(work);
     let report = report.map_err(|e| anyhow::anyhow!("{}: {e}", args.file.display()))?;
+    let bounds = tier_bounds(
+        &incident,
+        &report.placement,
+        &RelaxOptions {
+            time_limit: bound_time(args.budget_ms),
+            ..RelaxOptions::default()
+        },
+        &cancel,
+    );
+    let upper_bound = overall_bound(&report, &bounds);
     let before = task_views(&incident, &incident.placement);
     let after = task_views(&incident, &report.placement);
     let compare = args
@@ -505,7 +577,8 @@ pub fn run(args: Args) -> CliResult {
             tasks: after,
             tasks_before: before,
             proven_optimal: report.proven_optimal,
-            upper_bound: report.upper_bound,
+            upper_bound,
+            bounds: bound_views(&bounds),
             solve_ms,
             iterations: report.iterations,
             stop: report.stop.as_str(),
@@ -528,7 +601,7 @@ pub fn run(args: Args) -> CliResult {
     let proof = if report.proven_optimal {
         "proven optimal".to_string()
     } else {
-        match report.upper_bound {
+        match upper_bound {
             Some(b) => format!(
                 "best found, not proven; no plan can lift the worst odds above {}",
                 pct(b)
@@ -610,6 +683,7 @@ pub fn run(args: Args) -> CliResult {
         worst_cell(&before),
         worst_cell(&after)
     ));
+    out.push_str(&bound_lines(&bounds));
     out.push_str(&joint_before_after(&joint_before, &joint_after));
 
     if let Some(rows) = &compare {

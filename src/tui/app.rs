@@ -58,6 +58,7 @@ pub enum PlanStatus {
     Settled {
         elapsed: Duration,
         proven_optimal: bool,
+        bound: Option<crate::solver::relax::TierBound>,
     },
     /// The re-plan failed; the message says why.
     Failed(String),
@@ -209,6 +210,9 @@ pub struct PlanResult {
     pub placement: Placement,
     pub proven_optimal: bool,
     pub elapsed: Duration,
+    /// The first short tier's worst odds and how high they could go
+    /// (`solver::relax`); `None` when proven or not computed.
+    pub bound: Option<crate::solver::relax::TierBound>,
 }
 
 /// Work for the runtime; `update` never does it itself.

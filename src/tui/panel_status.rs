@@ -9,7 +9,7 @@ use ratatui::widgets::Paragraph;
 use super::app::{AppState, Mode, PlanStatus};
 use super::board::worst_open;
 use super::format::fit;
-use crate::odds::text::pct_ln;
+use crate::odds::text::{pct, pct_ln};
 
 /// The main keys per mode; `?` lists all.
 pub fn key_hint(mode: Mode) -> &'static str {
@@ -46,15 +46,33 @@ pub fn plan_words(state: &AppState) -> String {
                 elapsed.as_secs_f64()
             ),
         },
-        PlanStatus::Settled { proven_optimal, .. } => {
+        PlanStatus::Settled {
+            proven_optimal,
+            bound,
+            ..
+        } => {
             let proof = if *proven_optimal {
                 " (proven best)"
             } else {
                 ""
             };
+            // "worst stabilization 81.0 %, at most 93.0 % possible"
+            let gap = bound
+                .as_ref()
+                .and_then(|b| {
+                    b.upper_bound.map(|u| {
+                        format!(
+                            " · worst {} {}, at most {} possible",
+                            b.tier.as_str(),
+                            pct(b.worst_odds),
+                            pct(u)
+                        )
+                    })
+                })
+                .unwrap_or_default();
             match worst(state) {
-                Some(w) => format!("re-plan: done{proof} · worst if accepted {w}"),
-                None => format!("re-plan: done{proof} · no better plan: keep the ground"),
+                Some(w) => format!("re-plan: done{proof} · worst if accepted {w}{gap}"),
+                None => format!("re-plan: done{proof} · no better plan: keep the ground{gap}"),
             }
         }
         PlanStatus::Failed(e) => format!("re-plan failed: {e}"),

@@ -56,10 +56,24 @@ impl Planner for SolverPlanner {
             |p: &crate::solver::Progress| progress(p.placement, p.elapsed, p.iterations);
         let report = crate::solver::solve(incident, &self.options, cancel, &mut on_progress)
             .map_err(|e| e.to_string())?;
+        // The gap of the first short tier, after the plan is settled and
+        // within a small time limit (the cancel flag stops it too).
+        let bound = if report.proven_optimal {
+            None
+        } else {
+            let options = crate::solver::relax::RelaxOptions {
+                time_limit: Duration::from_millis(300),
+                ..Default::default()
+            };
+            crate::solver::relax::tier_bounds(incident, &report.placement, &options, cancel)
+                .first_short(incident)
+                .cloned()
+        };
         Ok(PlanResult {
             placement: report.placement,
             proven_optimal: report.proven_optimal,
             elapsed: report.elapsed,
+            bound,
         })
     }
 }

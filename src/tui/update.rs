@@ -51,6 +51,7 @@ pub fn update(state: &mut AppState, event: AppEvent) -> Vec<Effect> {
                     state.plan_status = PlanStatus::Settled {
                         elapsed: plan.elapsed,
                         proven_optimal: plan.proven_optimal,
+                        bound: plan.bound,
                     };
                     // The settled recommendation goes to the log, so that a
                     // replay can set it beside what was done.

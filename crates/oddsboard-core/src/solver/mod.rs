@@ -42,6 +42,7 @@ pub mod baselines;
 pub mod bound;
 pub mod exact;
 pub mod key;
+pub mod relax;
 pub mod search;
 pub mod stable;
 
