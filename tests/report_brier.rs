@@ -173,7 +173,10 @@ fn report_all_scores_many_logs_together() {
     let m = &v["murphy"];
     let f = |k: &str| m[k].as_f64().expect(k);
     let sum = f("reliability") - f("resolution") + f("uncertainty") + f("within_bin");
-    assert!((sum - v["brier_score"].as_f64().unwrap()).abs() < 1e-12, "{m}");
+    assert!(
+        (sum - v["brier_score"].as_f64().unwrap()).abs() < 1e-12,
+        "{m}"
+    );
     // Two logs without --all is a usage error.
     let out = assert_cmd::Command::cargo_bin("oddsboard")
         .expect("binary")

@@ -11,6 +11,7 @@
 
 pub mod after_action;
 pub mod calibration;
+pub mod ratings;
 pub mod timeline;
 
 pub use after_action::{
