@@ -703,6 +703,7 @@ fn command_key(state: &mut AppState, code: KeyCode) -> Option<Vec<Effect>> {
         KeyCode::Char('l') => FormKind::Lost,
         KeyCode::Char('a') => FormKind::AddUnit,
         KeyCode::Char('r') => FormKind::Rerate,
+        KeyCode::Char('o') => FormKind::Observe,
         KeyCode::Char('n') => FormKind::ChangeNeed,
         KeyCode::Char('c') => FormKind::CloseTask,
         KeyCode::Char('p') => FormKind::Pin,

@@ -22,6 +22,7 @@ pub fn keys(mode: Mode) -> Vec<(&'static str, &'static str)> {
             ("l", "mark a unit lost, with a reason"),
             ("a", "add a unit (id, type, optional rating)"),
             ("r", "re-rate a unit's trait (mean, sd)"),
+            ("o", "record a field reading (measured value, sd)"),
             ("n", "change a need of the selected task"),
             ("c", "close the selected task with its outcome"),
             ("p", "pin a unit to a task, or unpin it"),
