@@ -328,7 +328,7 @@ tasks: []
         let mut inc = incident(0.0);
         inc.add_reading(reading(0, 1650.0, 100.0));
         let b = inc.belief(UnitIdx::new(0), 0);
-        assert!((b.mean - 1684.482_758_620_69).abs() < 1e-9, "{b:?}");
+        assert!((b.mean - 1_684.482_758_620_69).abs() < 1e-9, "{b:?}");
         assert!((b.sd() - 92.847_669_088_525_9).abs() < 1e-9, "{b:?}");
         assert_eq!(b.load, 0.0);
         // The type-mate does not move when ρ = 0.
@@ -347,7 +347,7 @@ tasks: []
         // Withdrawing restores the posterior of the one reading.
         assert!(inc.withdraw_reading(&reading(0, 1700.0, 100.0)));
         let b = inc.belief(UnitIdx::new(0), 0);
-        assert!((b.mean - 1684.482_758_620_69).abs() < 1e-9, "{b:?}");
+        assert!((b.mean - 1_684.482_758_620_69).abs() < 1e-9, "{b:?}");
         assert!(!inc.withdraw_reading(&reading(0, 1700.0, 100.0)));
     }
 
@@ -359,7 +359,7 @@ tasks: []
         inc.add_reading(reading(0, 1650.0, 100.0));
         let a = inc.belief(UnitIdx::new(0), 0);
         let b = inc.belief(UnitIdx::new(1), 0);
-        assert!((a.mean - 1684.482_758_620_69).abs() < 1e-9, "{a:?}");
+        assert!((a.mean - 1_684.482_758_620_69).abs() < 1e-9, "{a:?}");
         assert!((b.mean - a.mean).abs() < 1e-9 && (b.sd() - a.sd()).abs() < 1e-9);
         assert_eq!(a.own, 0.0);
     }

@@ -201,8 +201,8 @@ fn nelder_mead(f: &dyn Fn([f64; 3]) -> f64, start: [f64; 3], step: f64) -> [f64;
         }
         let mut c = [0.0; 3];
         for p in &pts[..3] {
-            for d in 0..3 {
-                c[d] += p.0[d] / 3.0;
+            for (cd, pd) in c.iter_mut().zip(&p.0) {
+                *cd += pd / 3.0;
             }
         }
         let at = |t: f64| {
@@ -228,8 +228,8 @@ fn nelder_mead(f: &dyn Fn([f64; 3]) -> f64, start: [f64; 3], step: f64) -> [f64;
             } else {
                 let best = pts[0].0;
                 for p in pts.iter_mut().skip(1) {
-                    for d in 0..3 {
-                        p.0[d] = best[d] + 0.5 * (p.0[d] - best[d]);
+                    for (x, b) in p.0.iter_mut().zip(best) {
+                        *x = b + 0.5 * (*x - b);
                     }
                     p.1 = f(p.0);
                 }
