@@ -206,3 +206,67 @@ fn readings_that_do_not_apply_are_refused() {
     observe(&mut b, 0, 800.0, Some(100.0));
     assert_eq!(a.belief(UnitIdx::new(0), 0), b.belief(UnitIdx::new(0), 0));
 }
+
+/// The joint odds read the posterior loadings: two tasks each worked by one
+/// unit of a correlated type, after a reading of a third unit of it, against
+/// rejection Monte Carlo of both succeeding at once (z = 4 Wilson interval).
+#[test]
+fn joint_odds_after_a_reading_match_rejection_sampling() {
+    use oddsboard::odds::joint::{JointOptions, joint_odds};
+    let (rho, m, s, sd_e, y) = (
+        0.7_f64,
+        [1900.0, 1800.0, 1700.0],
+        [250.0, 300.0, 200.0],
+        80.0,
+        1600.0,
+    );
+    let mut inc = parse_incident_str(
+        &format!(
+            "incident: {{ name: Invented joint observation test }}\n\
+             traits: [ {{ id: water }} ]\n\
+             unit_types: [ {{ id: engine, rho: {rho}, traits: {{ water: {{ mean: 1000, sd: 100 }} }} }} ]\n\
+             units:\n\
+             - {{ id: U0, type: engine, traits: {{ water: {{ mean: {}, sd: {} }} }} }}\n\
+             - {{ id: U1, type: engine, traits: {{ water: {{ mean: {}, sd: {} }} }} }}\n\
+             - {{ id: U2, type: engine, traits: {{ water: {{ mean: {}, sd: {} }} }} }}\n\
+             tasks: [ {{ id: A, needs: {{ water: 1650 }} }}, {{ id: B, needs: {{ water: 1600 }} }} ]\n\
+             placement: {{ U1: A, U2: B }}\n",
+            m[0], s[0], m[1], s[1], m[2], s[2]
+        ),
+        "joint.yaml",
+    )
+    .expect("invented incident loads");
+    observe(&mut inc, 0, y, Some(sd_e));
+    let placement = inc.placement.clone();
+    let both = [TaskIdx::new(0), TaskIdx::new(1)];
+    let model = joint_odds(&inc, &placement, &both, JointOptions::default()).odds();
+    let product: f64 = evaluate(&inc, &placement)
+        .iter()
+        .map(|t| t.odds())
+        .product();
+    let mut rng = StdRng::seed_from_u64(20261207);
+    let (mut kept, mut met) = (0_u64, 0_u64);
+    while kept < 15_000 {
+        let z = normal(&mut rng);
+        let v: Vec<f64> = (0..3)
+            .map(|i| m[i] + s[i] * (rho.sqrt() * z + (1.0 - rho).sqrt() * normal(&mut rng)))
+            .collect();
+        if (v[0] + sd_e * normal(&mut rng) - y).abs() > 5.0 {
+            continue;
+        }
+        kept += 1;
+        if v[1] >= 1650.0 && v[2] >= 1600.0 {
+            met += 1;
+        }
+    }
+    let (lo, hi) = wilson_interval(met, kept, 4.0);
+    assert!(
+        (lo..=hi).contains(&model),
+        "joint {model} outside [{lo}, {hi}] ({met}/{kept})"
+    );
+    // The dependence through the shared factor matters here.
+    assert!(
+        !(lo..=hi).contains(&product),
+        "product {product} vs [{lo}, {hi}]"
+    );
+}
