@@ -58,14 +58,118 @@ pub struct Reading {
     pub sd: f64,
 }
 
+/// Running precision-weighted summary of one unit's readings.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+struct Summary {
+    /// Σ 1/sd² and Σ value/sd² over readings with sd > 0.
+    w: f64,
+    wy: f64,
+    /// Count and Σ value of exact readings (sd 0).
+    n0: u32,
+    y0: f64,
+}
+
+impl Summary {
+    fn add(&mut self, r: &Reading) {
+        if r.sd > 0.0 {
+            let p = 1.0 / (r.sd * r.sd);
+            self.w += p;
+            self.wy += p * r.value;
+        } else {
+            self.n0 += 1;
+            self.y0 += r.value;
+        }
+    }
+    /// (ȳ, E): the readings' precision-weighted mean and its noise
+    /// variance. Exact readings (sd 0), if any, decide alone (their mean,
+    /// E = 0).
+    fn get(&self) -> Option<(f64, f64)> {
+        if self.n0 > 0 {
+            Some((self.y0 / f64::from(self.n0), 0.0))
+        } else if self.w > 0.0 {
+            Some((self.wy / self.w, 1.0 / self.w))
+        } else {
+            None
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+struct UnitCell {
+    sum: Summary,
+    belief: Belief,
+}
+
 /// Posterior of one (type, trait) with readings.
-#[derive(Debug, Clone, PartialEq, Default)]
+#[derive(Debug, Clone, PartialEq)]
 struct Cell {
     /// Posterior mean and sd of the standardised shared factor Z.
     z_mean: f64,
     z_sd: f64,
-    /// Beliefs of the units with readings (and a rated spread).
-    units: BTreeMap<UnitIdx, Belief>,
+    /// Information form of Z's posterior: Σ h²/D and Σ h(ȳ − m)/D over the
+    /// observed units (precision 1 + the first, mean the second over it).
+    prec: f64,
+    info: f64,
+    /// Some unit has D = 0 (ρ = 1 and an exact reading): Z is known and the
+    /// information form does not hold; such a cell is rebuilt in full.
+    degenerate: bool,
+    /// The units with readings (and a rated spread).
+    units: BTreeMap<UnitIdx, UnitCell>,
+}
+
+impl Cell {
+    fn empty() -> Cell {
+        Cell {
+            z_mean: 0.0,
+            z_sd: 1.0,
+            prec: 0.0,
+            info: 0.0,
+            degenerate: false,
+            units: BTreeMap::new(),
+        }
+    }
+}
+
+/// One observed unit's term in Z's information: (h²/D, h(ȳ − m)/D), with
+/// h = s√ρ and D = s²(1−ρ) + E; `None` when D = 0.
+fn contribution(r: Rating, rho: f64, (y, e): (f64, f64)) -> Option<(f64, f64)> {
+    let h = r.sd * rho.sqrt();
+    let d = r.sd * r.sd * (1.0 - rho) + e;
+    (d > 0.0).then(|| (h * h / d, h * (y - r.mean) / d))
+}
+
+/// A unit's belief given its summary and Z's posterior (docs/model.md,
+/// "Observations", step 3).
+fn unit_belief(r: Rating, rho: f64, (y, e): (f64, f64), zm: f64, z_sd: f64) -> Belief {
+    let h = r.sd * rho.sqrt();
+    let own_var = r.sd * r.sd * (1.0 - rho);
+    let d = own_var + e;
+    // c: weight of the reading on the own part; 1 − c = E/D.
+    let (c, rest) = if d > 0.0 {
+        (own_var / d, e / d)
+    } else {
+        (0.0, 1.0)
+    };
+    Belief {
+        mean: r.mean + c * (y - r.mean) + h * rest * zm,
+        load: h * rest * z_sd,
+        own: (r.sd * (1.0 - rho).sqrt()) * rest.sqrt(),
+    }
+}
+
+/// Z's posterior from the information sums (unless degenerate), then every
+/// observed unit's belief.
+fn finish(cell: &mut Cell, units: &[super::Unit], rho: f64, k: TraitIdx) {
+    if !cell.degenerate {
+        let p = 1.0 + cell.prec;
+        cell.z_mean = cell.info / p;
+        cell.z_sd = (1.0 / p).sqrt();
+    }
+    for (&u, uc) in cell.units.iter_mut() {
+        if let Some(sy) = uc.sum.get() {
+            uc.belief = unit_belief(units[u].ratings[k], rho, sy, cell.z_mean, cell.z_sd);
+        }
+    }
 }
 
 /// The readings of an incident and the posterior they give.
@@ -114,8 +218,8 @@ impl Observations {
             return None;
         }
         let cell = self.cells.get(&(t, k))?;
-        if let Some(b) = cell.units.get(&u) {
-            return Some(*b);
+        if let Some(uc) = cell.units.get(&u) {
+            return Some(uc.belief);
         }
         // Unobserved type-mate: informed only through Z.
         let h = r.sd * rho.sqrt();
@@ -132,96 +236,57 @@ impl Observations {
     }
 }
 
-/// Precision-weighted summary of one unit's readings: (ȳ, E) with E the
-/// noise variance of ȳ. Exact readings (sd 0), if any, decide alone (their
-/// mean, E = 0).
-fn summary<'a>(readings: impl Iterator<Item = &'a Reading>) -> Option<(f64, f64)> {
-    let (mut w, mut wy, mut n0, mut y0) = (0.0, 0.0, 0_u32, 0.0);
-    for r in readings {
-        if r.sd > 0.0 {
-            let p = 1.0 / (r.sd * r.sd);
-            w += p;
-            wy += p * r.value;
-        } else {
-            n0 += 1;
-            y0 += r.value;
-        }
-    }
-    if n0 > 0 {
-        Some((y0 / f64::from(n0), 0.0))
-    } else if w > 0.0 {
-        Some((wy / w, 1.0 / w))
-    } else {
-        None
-    }
-}
-
 /// The posterior of (t, k) from every reading of it (docs/model.md,
-/// "Observations"): Z by sequential conditioning on each observed unit's
-/// summary ȳ_i = m_i + h_i·Z + (own part + noise), h_i = s_i√ρ, the
-/// residual variance D_i = s_i²(1−ρ) + E_i (the multivariate normal
-/// conditional, one scalar observation at a time); then each unit's own part
-/// given Z by the conjugate normal update (Gelman et al., BDA 3rd ed. §2.5)
-/// with weight c_i = s_i²(1−ρ)/D_i.
+/// "Observations"): Z from the observed units' summaries
+/// ȳ_i = m_i + h_i·Z + (own part + noise), h_i = s_i√ρ, residual variance
+/// D_i = s_i²(1−ρ) + E_i (the multivariate normal conditional; in
+/// information form, or one scalar step at a time when some D_i = 0); then
+/// each unit's own part given Z by the conjugate normal update (Gelman et
+/// al., BDA 3rd ed. §2.5) with weight c_i = s_i²(1−ρ)/D_i.
 fn cell(inc: &Incident, t: TypeIdx, k: TraitIdx) -> Option<Cell> {
     let rho = inc.unit_types[t].rho;
-    let mut by_unit: BTreeMap<UnitIdx, Vec<&Reading>> = BTreeMap::new();
+    let mut c = Cell::empty();
     for r in &inc.observations.readings {
-        if r.trait_idx == k && inc.units[r.unit].type_idx == t {
-            by_unit.entry(r.unit).or_default().push(r);
+        if r.trait_idx == k
+            && inc.units[r.unit].type_idx == t
+            && inc.units[r.unit].ratings[k].sd > 0.0
+        {
+            c.units.entry(r.unit).or_default().sum.add(r);
         }
     }
-    let mut rows = Vec::new();
-    for (u, rs) in by_unit {
-        let rating = inc.units[u].ratings[k];
-        if rating.sd <= 0.0 {
-            continue; // a certain value: a reading cannot move it
-        }
-        if let Some((y, e)) = summary(rs.into_iter()) {
-            rows.push((u, rating, y, e));
-        }
-    }
-    if rows.is_empty() {
+    if c.units.is_empty() {
         return None;
     }
-    let (sr, s1r) = (rho.sqrt(), (1.0 - rho).sqrt());
-    let (mut zm, mut zv) = (0.0_f64, 1.0_f64);
-    for &(_, r, y, e) in &rows {
-        let h = r.sd * sr;
-        let d = r.sd * r.sd * (1.0 - rho) + e;
-        let s = h * h * zv + d;
-        if s > 0.0 {
-            let gain = zv * h / s;
-            zm += gain * (y - r.mean - h * zm);
-            zv = zv * d / s;
+    for (&u, uc) in &c.units {
+        let Some(sy) = uc.sum.get() else { continue };
+        match contribution(inc.units[u].ratings[k], rho, sy) {
+            Some((p, b)) => {
+                c.prec += p;
+                c.info += b;
+            }
+            None => c.degenerate = true,
         }
     }
-    let z_sd = zv.max(0.0).sqrt();
-    let units = rows
-        .into_iter()
-        .map(|(u, r, y, e)| {
-            let h = r.sd * sr;
-            let own_var = r.sd * r.sd * (1.0 - rho);
-            let d = own_var + e;
-            // c: weight of the reading on the own part; 1 − c = E/D.
-            let (c, rest) = if d > 0.0 {
-                (own_var / d, e / d)
-            } else {
-                (0.0, 1.0)
-            };
-            let b = Belief {
-                mean: r.mean + c * (y - r.mean) + h * rest * zm,
-                load: h * rest * z_sd,
-                own: (r.sd * s1r) * rest.sqrt(),
-            };
-            (u, b)
-        })
-        .collect();
-    Some(Cell {
-        z_mean: zm,
-        z_sd,
-        units,
-    })
+    if c.degenerate {
+        // Sequential scalar conditioning copes with D = 0.
+        let (mut zm, mut zv) = (0.0_f64, 1.0_f64);
+        for (&u, uc) in &c.units {
+            let Some((y, e)) = uc.sum.get() else { continue };
+            let r = inc.units[u].ratings[k];
+            let h = r.sd * rho.sqrt();
+            let d = r.sd * r.sd * (1.0 - rho) + e;
+            let s = h * h * zv + d;
+            if s > 0.0 {
+                let gain = zv * h / s;
+                zm += gain * (y - r.mean - h * zm);
+                zv = zv * d / s;
+            }
+        }
+        c.z_mean = zm;
+        c.z_sd = zv.max(0.0).sqrt();
+    }
+    finish(&mut c, &inc.units, rho, k);
+    Some(c)
 }
 
 impl Incident {
@@ -237,10 +302,44 @@ impl Incident {
             .unwrap_or_else(|| Belief::prior(r, rho))
     }
 
-    /// Adds a reading and updates its (type, trait) posterior.
+    /// Adds a reading and updates its (type, trait) posterior: in O(units
+    /// read of that type) through the information sums, in full only when
+    /// the cell is degenerate (ρ = 1 and an exact reading).
     pub fn add_reading(&mut self, reading: Reading) {
         self.observations.readings.push(reading);
-        self.refresh_cell(self.units[reading.unit].type_idx, reading.trait_idx);
+        let (u, k) = (reading.unit, reading.trait_idx);
+        let t = self.units[u].type_idx;
+        let r = self.units[u].ratings[k];
+        let rho = self.unit_types[t].rho;
+        if r.sd <= 0.0 {
+            return; // a certain value: the reading cannot move it
+        }
+        let Incident {
+            units,
+            observations,
+            ..
+        } = self;
+        let cell = observations.cells.entry((t, k)).or_insert_with(Cell::empty);
+        let mut full = cell.degenerate;
+        if !full {
+            let uc = cell.units.entry(u).or_default();
+            if let Some((p, b)) = uc.sum.get().and_then(|sy| contribution(r, rho, sy)) {
+                cell.prec -= p;
+                cell.info -= b;
+            }
+            uc.sum.add(&reading);
+            match uc.sum.get().and_then(|sy| contribution(r, rho, sy)) {
+                Some((p, b)) => {
+                    cell.prec += p;
+                    cell.info += b;
+                    finish(cell, units, rho, k);
+                }
+                None => full = true,
+            }
+        }
+        if full {
+            self.refresh_cell(t, k);
+        }
     }
 
     /// Takes back the last reading equal to `reading`; false if none.
