@@ -242,6 +242,9 @@ fn nelder_mead(f: &dyn Fn([f64; 3]) -> f64, start: [f64; 3], step: f64) -> [f64;
 
 const Z95: f64 = 1.959_964;
 
+/// Fewer incidents than this: ρ rests on too few shared draws to trust.
+pub const MIN_INCIDENTS: usize = 10;
+
 /// REML estimates of one group; `None` with fewer than 3 readings.
 pub fn estimate(unit_type: &str, trait_id: &str, g: &Group) -> Option<Rating> {
     let (obs, units, incidents) = g.counts();
@@ -325,9 +328,13 @@ pub fn estimate(unit_type: &str, trait_id: &str, g: &Group) -> Option<Rating> {
         },
     };
     let mut warnings = Vec::new();
-    if incidents < 5 {
+    if incidents < 2 {
+        warnings.push(
+            "one incident: ρ cannot be estimated (the incident's shared part is the mean itself); treat ρ as unknown".into(),
+        );
+    } else if incidents < MIN_INCIDENTS {
         warnings.push(format!(
-            "only {incidents} incidents: the shared share ρ cannot be told from a unit's own spread; treat ρ as unknown"
+            "only {incidents} incidents: the shared share ρ is poorly told from a unit's own spread; read its interval"
         ));
     }
     if units < 10 {
