@@ -56,6 +56,11 @@ fn event() -> impl Strategy<Value = Event> {
             moves: m.into_iter().map(|(unit, from, to)| Move { unit, from, to }).collect() }),
         1 => Just(Event::PlanRejected {}),
         1 => "[a-z ]{0,12}".prop_map(|text| Event::Note { text }),
+        // Readings condition the posterior of the unit and its type-mates.
+        3 => (unit(), trait_id(), -10.0..3000.0f64, prop::option::of(-5.0..300.0f64))
+            .prop_map(|(unit, trait_id, value, sd)| Event::Observed { unit, trait_id, value, sd }),
+        1 => (unit(), trait_id(), -10.0..3000.0f64, prop::option::of(0.0..300.0f64))
+            .prop_map(|(unit, trait_id, value, sd)| Event::ObservationWithdrawn { unit, trait_id, value, sd }),
     ]
 }
 

@@ -225,6 +225,7 @@ fn random_incident(seed: u64) -> Incident {
                 id: format!("k{k}"),
                 label: String::new(),
                 unit: "u".into(),
+                measurement_sd: None,
             })
             .collect(),
         unit_types,
@@ -232,6 +233,7 @@ fn random_incident(seed: u64) -> Incident {
         tasks,
         placement,
         pins: Default::default(),
+        observations: Default::default(),
     }
 }
 

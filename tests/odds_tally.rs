@@ -237,6 +237,7 @@ fn build(s: &Shape) -> Incident {
             id: format!("k{k}"),
             label: format!("k{k}"),
             unit: "u".into(),
+            measurement_sd: None,
         })
         .collect();
     let unit_types: Vec<UnitType> = s
@@ -298,6 +299,7 @@ fn build(s: &Shape) -> Incident {
         units,
         tasks,
         pins: Default::default(),
+        observations: Default::default(),
     }
 }
 

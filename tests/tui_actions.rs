@@ -470,7 +470,7 @@ fn a_new_task_with_an_unknown_trait_is_refused_inline() {
 /// Every form is reachable from the help overlay: its key opens it there.
 #[test]
 fn every_form_opens_from_the_help_overlay() {
-    for key in ['l', 'a', 'o', 'r', 'n', 'c', 'p', 'm', 't'] {
+    for key in ['l', 'a', 'o', 'r', 'f', 'n', 'c', 'p', 'm', 't'] {
         let mut b = Bench::new(drill());
         b.key(KeyCode::Char('?'));
         assert!(matches!(b.state.overlay, Overlay::Help));
@@ -481,4 +481,30 @@ fn every_form_opens_from_the_help_overlay() {
             b.state.overlay
         );
     }
+}
+
+/// A field reading recorded through its form (`f`) is one `observed`
+/// record, the state equals the log's fold, and undo withdraws it.
+#[test]
+fn record_a_field_reading_through_the_form_and_undo_it() {
+    let mut b = Bench::new(drill());
+    let before = b.state.incident.clone();
+    b.key(KeyCode::Char('f'));
+    b.type_enter("W1");
+    b.type_enter("water");
+    b.type_enter("900");
+    let written = b.type_enter("100");
+    assert_eq!(
+        written,
+        vec![Event::Observed {
+            unit: "W1".into(),
+            trait_id: "water".into(),
+            value: 900.0,
+            sd: Some(100.0),
+        }]
+    );
+    assert_matches_log(&b);
+    assert_ne!(b.state.incident, before, "the reading moved the belief");
+    b.key(KeyCode::Char('u'));
+    assert_matches_log(&b);
 }

@@ -17,6 +17,7 @@ pub mod json;
 pub mod odds;
 pub mod plan;
 pub mod progress;
+pub mod ratings;
 pub mod record;
 pub mod render;
 pub mod replay;
@@ -77,6 +78,8 @@ pub enum Command {
     Timeline(timeline::Args),
     /// After-action report (Markdown) of a log.
     Report(report::Args),
+    /// Ratings learned from the field readings of many logs (REML).
+    Ratings(ratings::Args),
     /// Fragile units, resource requests and life-safety notes.
     Advise(advise::Args),
     /// The briefing sheet: per task its units, odds and notes; reserve.
@@ -164,6 +167,7 @@ pub fn run(command: Command) -> CliResult {
         Command::Replay(a) => replay::run(a),
         Command::Timeline(a) => timeline::run(a),
         Command::Report(a) => report::run(a),
+        Command::Ratings(a) => ratings::run(a),
         Command::Advise(a) => advise::run(a),
         Command::Sheet(a) => sheet::run(a),
         Command::Completions(a) => shell::run_completions(a),

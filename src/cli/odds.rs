@@ -50,6 +50,7 @@ pub fn run(args: Args) -> CliResult {
         },
     ));
     out.push_str(&joint_block(&view.joint_detail));
+    out.push_str(&readings_block(&view.readings));
     out.push_str(&footer(&view.tasks));
     print!("{}", crate::clean::clean_lines(&out));
     Ok(())
@@ -109,6 +110,29 @@ pub fn joint_block(details: &[JointDetailView]) -> String {
              joint odds are not the product of their odds.",
             78,
             "",
+        ));
+    }
+    out.push('\n');
+    out
+}
+
+/// Ratings moved by field readings, one line each; empty without readings.
+pub fn readings_block(readings: &[crate::odds::view::RatingNow]) -> String {
+    if readings.is_empty() {
+        return String::new();
+    }
+    let mut out = String::from("Field readings (the odds above use the ratings now):\n");
+    for r in readings {
+        let measure = if r.measure.is_empty() {
+            String::new()
+        } else {
+            format!(" ({})", r.measure)
+        };
+        out.push_str(&format!(
+            "  {} {}{measure}: {}\n",
+            r.unit,
+            r.trait_id,
+            r.describe()
         ));
     }
     out.push('\n');

@@ -27,6 +27,14 @@ pub struct Args {
 
 pub fn run(args: Args) -> CliResult {
     let incident = load_state(&args.file)?;
+    if !incident.observations.is_empty() {
+        // A snapshot holds ratings, not readings (docs/model.md).
+        eprintln!(
+            "note: the {} field readings of {} do not carry into the new log; its odds start from the ratings as rated (re-rate units first to keep what the readings showed)",
+            incident.observations.readings().len(),
+            args.file.display()
+        );
+    }
     let writer = LogWriter::create_at(&args.log, &incident, &actor(args.by), args.at)?;
     let s = writer.state();
     if args.json {

@@ -129,6 +129,21 @@ pub fn open_form(state: &AppState, kind: FormKind) -> Result<Form, String> {
                 Field::text("sd", "blank keeps the current sd", ""),
             ]
         }
+        FormKind::Observe => {
+            if inc.roster_len() == 0 {
+                return Err("no units on the roster".into());
+            }
+            vec![
+                Field::pick("unit", unit_options(inc, false), None),
+                Field::pick("trait", trait_options(inc), None),
+                Field::text("value", "the measured figure, ≥ 0", ""),
+                Field::text(
+                    "sd",
+                    "the reading's spread; blank: the trait's measurement sd, else the unit's rated sd",
+                    "",
+                ),
+            ]
+        }
         FormKind::ChangeNeed => {
             let tasks = task_options(inc);
             if tasks.is_empty() {
@@ -290,6 +305,18 @@ pub fn submit(state: &AppState, form: &Form) -> Result<Vec<Event>, (usize, Strin
                 unit,
                 trait_id,
                 mean,
+                sd,
+            }])
+        }
+        FormKind::Observe => {
+            let unit = picked(form, 0, "unit")?;
+            let trait_id = picked(form, 1, "trait")?;
+            let value = number(form, 2, "value", true)?.unwrap_or_default();
+            let sd = number(form, 3, "sd", false)?;
+            Ok(vec![Event::Observed {
+                unit,
+                trait_id,
+                value,
                 sd,
             }])
         }

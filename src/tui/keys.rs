@@ -84,6 +84,7 @@ fn command_key(state: &mut AppState, code: KeyCode) -> Option<Vec<Effect>> {
         KeyCode::Char('l') => FormKind::Lost,
         KeyCode::Char('a') => FormKind::AddUnit,
         KeyCode::Char('o') => FormKind::AddTask,
+        KeyCode::Char('f') => FormKind::Observe,
         KeyCode::Char('r') => FormKind::Rerate,
         KeyCode::Char('n') => FormKind::ChangeNeed,
         KeyCode::Char('c') => FormKind::CloseTask,

@@ -23,6 +23,7 @@ pub fn keys(mode: Mode) -> Vec<(&'static str, &'static str)> {
             ("a", "add a unit (id, type, optional rating)"),
             ("o", "open a new task (id, label, tier, needs, limits)"),
             ("r", "re-rate a unit's trait (mean, sd)"),
+            ("f", "record a field reading (measured value, sd)"),
             ("n", "change a need of the selected task"),
             ("c", "close the selected task with its outcome"),
             ("p", "pin a unit to a task, or unpin it"),

@@ -271,6 +271,23 @@ fn compact(state: &AppState) -> Vec<Line<'static>> {
             oos.join(" ")
         }),
     ]));
+    // Ratings moved by field readings: the units read (type-mates moved
+    // through the shared factor are in `odds`).
+    let read: Vec<_> = crate::odds::view::ratings_now(inc)
+        .into_iter()
+        .filter(|r| r.readings > 0)
+        .collect();
+    if !read.is_empty() {
+        out.push(Line::styled("Field readings", th.heading()));
+        for r in read {
+            out.push(Line::raw(format!(
+                "  {} {}: {}",
+                r.unit,
+                r.trait_id,
+                r.describe()
+            )));
+        }
+    }
     out
 }
 

@@ -10,7 +10,7 @@
 use super::event::{Event, Move, OutcomeValue, StatusValue};
 use crate::model::load::{Sink, convert_task, convert_unit};
 use crate::model::locate::Locator;
-use crate::model::{Incident, Need, Outcome, Placement, TaskIdx, UnitIdx, UnitStatus};
+use crate::model::{Incident, Need, Outcome, Placement, Reading, TaskIdx, UnitIdx, UnitStatus};
 use crate::rules;
 
 /// Why an event does not apply to the state.
@@ -165,7 +165,11 @@ pub fn apply(state: &mut Incident, event: &Event) -> Result<(), ApplyError> {
             let mut sink = new_sink(&locator, "unit_added");
             match convert_unit(state, unit, "unit", &mut sink) {
                 Some(u) if sink.out.is_empty() => {
-                    state.add_unit(u);
+                    let u = state.add_unit(u);
+                    // A lost unit's slot taken back keeps its readings.
+                    if state.observations.readings().iter().any(|r| r.unit == u) {
+                        state.refresh_beliefs();
+                    }
                     Ok(())
                 }
                 _ => Err(sink_error(sink)),
@@ -190,6 +194,10 @@ pub fn apply(state: &mut Incident, event: &Event) -> Result<(), ApplyError> {
             }
             if let Some(s) = sd {
                 r.sd = s;
+            }
+            // Readings stay; they now update the new rating.
+            if state.observations.touches(state.units[u].type_idx, k) {
+                state.refresh_beliefs();
             }
             Ok(())
         }
@@ -309,14 +317,122 @@ pub fn apply(state: &mut Incident, event: &Event) -> Result<(), ApplyError> {
             Ok(())
         }
         Event::PlanRejected {} | Event::Note { .. } => Ok(()),
+        Event::Observed {
+            unit,
+            trait_id,
+            value,
+            sd,
+        } => {
+            let reading = reading_of(state, unit, trait_id, *value, *sd)?;
+            let rated = state.units[reading.unit].ratings[reading.trait_idx];
+            if rated.sd <= 0.0 {
+                return refuse(format!(
+                    "{unit} is rated {trait_id} {} with sd 0 (a certain value): a reading cannot change it; re-rate the unit instead",
+                    rated.mean
+                ));
+            }
+            state.add_reading(reading);
+            Ok(())
+        }
+        Event::ObservationWithdrawn {
+            unit,
+            trait_id,
+            value,
+            sd,
+        } => {
+            let u = unit_of(state, unit)?;
+            let k = trait_of(state, trait_id)?;
+            let found = state
+                .observations
+                .readings()
+                .iter()
+                .rev()
+                .find(|r| {
+                    r.unit == u
+                        && r.trait_idx == k
+                        && r.value == *value
+                        && sd.is_none_or(|s| r.sd == s)
+                })
+                .copied();
+            match found {
+                Some(r) => {
+                    state.withdraw_reading(&r);
+                    Ok(())
+                }
+                None => refuse(format!(
+                    "{unit} has no reading of {trait_id} {value}{} to withdraw",
+                    sd.map(|s| format!(" (sd {s})")).unwrap_or_default()
+                )),
+            }
+        }
     }
+}
+
+/// Checks an `observed` event and resolves its sd: the event's, else the
+/// trait's `measurement_sd`, else the unit's rated sd (docs/model.md).
+fn reading_of(
+    state: &Incident,
+    unit: &str,
+    trait_id: &str,
+    value: f64,
+    sd: Option<f64>,
+) -> Result<Reading, ApplyError> {
+    let u = unit_of(state, unit)?;
+    let k = trait_of(state, trait_id)?;
+    let value = amount("value", value)?;
+    let sd = match sd {
+        Some(s) => amount("sd", s)?,
+        None => state.traits[k]
+            .measurement_sd
+            .unwrap_or(state.units[u].ratings[k].sd),
+    };
+    Ok(Reading {
+        unit: u,
+        trait_idx: k,
+        value,
+        sd,
+    })
 }
 
 /// Ids of the units whose tally contribution an event may change (placement
 /// or rating), taken before the event is applied. Used to keep per-task
 /// tallies up to date without rebuilding them.
 pub fn touched_units(state: &Incident, event: &Event) -> Vec<String> {
+    // A reading (or a re-rating under readings) moves the posterior of every
+    // unit of the type through the shared factor.
+    let type_mates = |unit: &str| -> Vec<String> {
+        let Some(u) = state.unit_idx(unit) else {
+            return Vec::new();
+        };
+        let t = state.units[u].type_idx;
+        state
+            .roster()
+            .filter(|(_, x)| x.type_idx == t)
+            .map(|(_, x)| x.id.clone())
+            .collect()
+    };
     match event {
+        Event::Observed { unit, .. } | Event::ObservationWithdrawn { unit, .. } => type_mates(unit),
+        // A lost unit's slot taken back brings its readings back.
+        Event::UnitAdded { unit }
+            if state
+                .unit_slot(&unit.id)
+                .is_some_and(|u| state.observations.readings().iter().any(|r| r.unit == u)) =>
+        {
+            let t = state.type_idx(&unit.unit_type);
+            state
+                .roster()
+                .filter(|(_, x)| Some(x.type_idx) == t)
+                .map(|(_, x)| x.id.clone())
+                .collect()
+        }
+        Event::UnitRerated { unit, .. }
+            if state
+                .unit_idx(unit)
+                .is_some_and(|u| state.observations.touches_type(state.units[u].type_idx)) =>
+        {
+            type_mates(unit)
+        }
         Event::UnitLost { unit, .. }
         | Event::UnitRerated { unit, .. }
         | Event::UnitStatus { unit, .. }

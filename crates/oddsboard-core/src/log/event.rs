@@ -160,6 +160,28 @@ pub enum Event {
     Note {
         text: String,
     },
+    /// A measurement of the unit's capability in one trait on this
+    /// incident; `sd` is the measurement's own spread (left out: the
+    /// trait's `measurement_sd`, else the unit's rated sd).
+    Observed {
+        unit: String,
+        #[serde(rename = "trait")]
+        trait_id: String,
+        value: f64,
+        #[serde(default, skip_serializing_if = "Option::is_none")]
+        sd: Option<f64>,
+    },
+    /// Takes back the last `observed` of this unit and trait with this value
+    /// and sd (undo of a reading entered in error). Without `sd`, the sd
+    /// the reading was given when applied.
+    ObservationWithdrawn {
+        unit: String,
+        #[serde(rename = "trait")]
+        trait_id: String,
+        value: f64,
+        #[serde(default, skip_serializing_if = "Option::is_none")]
+        sd: Option<f64>,
+    },
 }
 
 impl Event {
@@ -181,6 +203,8 @@ impl Event {
             Event::PlanAccepted { .. } => "plan_accepted",
             Event::PlanRejected {} => "plan_rejected",
             Event::Note { .. } => "note",
+            Event::Observed { .. } => "observed",
+            Event::ObservationWithdrawn { .. } => "observation_withdrawn",
         }
     }
 
@@ -252,6 +276,25 @@ impl Event {
             Event::PlanAccepted { moves: m } => format!("plan accepted: {}", moves(m)),
             Event::PlanRejected {} => "plan rejected".into(),
             Event::Note { text } => format!("note: {text}"),
+            Event::Observed {
+                unit,
+                trait_id,
+                value,
+                sd,
+            } => match sd {
+                Some(s) => format!(
+                    "{unit} measured: {trait_id} {} (sd {})",
+                    num(*value),
+                    num(*s)
+                ),
+                None => format!("{unit} measured: {trait_id} {}", num(*value)),
+            },
+            Event::ObservationWithdrawn {
+                unit,
+                trait_id,
+                value,
+                ..
+            } => format!("{unit} reading withdrawn: {trait_id} {}", num(*value)),
         }
     }
 }
@@ -278,6 +321,9 @@ mod tests {
             "{ kind: plan_accepted, moves: [ { unit: E3, from: T1, to: T2 } ] }",
             "{ kind: plan_rejected }",
             "{ kind: note,          text: Crews report partial roof collapse }",
+            "{ kind: observed,      unit: E3, trait: water, value: 1650, sd: 100 }",
+            "{ kind: observed,      unit: E3, trait: water, value: 1650 }",
+            "{ kind: observation_withdrawn, unit: E3, trait: water, value: 1650, sd: 100 }",
         ];
         for l in lines {
             let e: Event = serde_yaml::from_str(l).unwrap_or_else(|e| panic!("{l}: {e}"));
@@ -299,6 +345,8 @@ mod tests {
             "{ kind: unit_teleported, unit: E1 }",
             "{ kind: unit_status, unit: E1, status: broken }",
             "{ kind: task_closed, task: T1, outcome: maybe }",
+            "{ kind: observed, unit: E3, trait: water }",
+            "{ kind: observed, unit: E3, trait: water, value: 1650, spread: 10 }",
         ] {
             assert!(serde_yaml::from_str::<Event>(bad).is_err(), "{bad}");
         }

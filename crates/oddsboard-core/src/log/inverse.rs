@@ -132,6 +132,56 @@ pub fn inverse(inc: &Incident, event: &Event) -> Result<Vec<Event>, InverseError
                 })
                 .collect(),
         }]),
+        Event::Observed {
+            unit,
+            trait_id,
+            value,
+            sd,
+        } => {
+            let u = unit_idx(unit)?;
+            let k = trait_idx(trait_id)?;
+            // The sd the reading takes when applied to `inc`.
+            let sd = sd.unwrap_or_else(|| {
+                inc.traits[k]
+                    .measurement_sd
+                    .unwrap_or(inc.units[u].ratings[k].sd)
+            });
+            Ok(vec![Event::ObservationWithdrawn {
+                unit: unit.clone(),
+                trait_id: trait_id.clone(),
+                value: *value,
+                sd: Some(sd),
+            }])
+        }
+        Event::ObservationWithdrawn {
+            unit,
+            trait_id,
+            value,
+            sd,
+        } => {
+            let u = unit_idx(unit)?;
+            let k = trait_idx(trait_id)?;
+            let r = inc
+                .observations
+                .readings()
+                .iter()
+                .rev()
+                .find(|r| {
+                    r.unit == u
+                        && r.trait_idx == k
+                        && r.value == *value
+                        && sd.is_none_or(|s| r.sd == s)
+                })
+                .ok_or_else(|| {
+                    InverseError::NotUndoable(format!("{unit} has no such reading to restore"))
+                })?;
+            Ok(vec![Event::Observed {
+                unit: unit.clone(),
+                trait_id: trait_id.clone(),
+                value: r.value,
+                sd: Some(r.sd),
+            }])
+        }
         Event::Note { text } => Ok(vec![Event::Note {
             text: format!("retracted: {text}"),
         }]),

@@ -59,6 +59,10 @@ pub struct TraitFile {
     pub label: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub unit: Option<String>,
+    /// Spread of one field measurement of this trait (an `observed` event
+    /// without its own `sd`); see docs/model.md for the default.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub measurement_sd: Option<f64>,
 }
 
 /// A rating in the file: on a type both fields default to 0; on a unit's
@@ -198,6 +202,7 @@ impl IncidentFile {
                 id: t.id.clone(),
                 label: Some(t.label.clone()),
                 unit: (!t.unit.is_empty()).then(|| t.unit.clone()),
+                measurement_sd: t.measurement_sd,
             })
             .collect();
         let trait_id = |k: usize| incident.traits[k].id.clone();

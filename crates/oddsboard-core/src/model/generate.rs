@@ -83,6 +83,7 @@ pub fn generate_file(spec: &GenerateSpec) -> IncidentFile {
             id: id.clone(),
             label: Some(format!("Invented capability {}", k + 1)),
             unit: Some(format!("u{}/h", k + 1)),
+            measurement_sd: None,
         })
         .collect();
 

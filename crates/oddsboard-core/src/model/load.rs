@@ -276,6 +276,7 @@ fn read_sections(
             id: text_field(v, "id").unwrap_or_default(),
             label: None,
             unit: None,
+            measurement_sd: None,
         }
     });
     let unit_types = list(
@@ -788,10 +789,19 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
         .enumerate()
         .map(|(i, t)| {
             check_id(sink, &format!("traits[{i}]"), &t.id, &mut seen, "trait");
+            let measurement_sd = t.measurement_sd.filter(|&v| {
+                check_number(
+                    sink,
+                    &format!("traits[{i}].measurement_sd"),
+                    "measurement_sd",
+                    v,
+                )
+            });
             TraitDef {
                 id: t.id.clone(),
                 label: t.label.clone().unwrap_or_else(|| t.id.clone()),
                 unit: t.unit.clone().unwrap_or_default(),
+                measurement_sd,
             }
         })
         .collect();
@@ -839,6 +849,7 @@ fn convert(f: &IncidentFile, sink: &mut Sink) -> Incident {
         tasks: Vec::new(),
         placement: Placement::default(),
         pins: BTreeMap::new(),
+        observations: Default::default(),
     };
 
     // Units and tasks that did not convert: left out of the checks of

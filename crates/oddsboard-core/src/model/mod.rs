@@ -13,11 +13,13 @@
 //! Invariant: this module does no terminal I/O and reads files only through
 //! [`load`].
 
+pub mod belief;
 pub mod file;
 pub mod generate;
 pub mod load;
 pub mod locate;
 
+pub use belief::{Belief, Observations, Reading};
 pub use load::{Diagnostic, LoadError, load_incident_file, parse_incident_str};
 
 use std::collections::BTreeMap;
@@ -101,6 +103,9 @@ pub struct TraitDef {
     pub label: String,
     /// Unit of measure shown beside every amount of this trait.
     pub unit: String,
+    /// Spread of one field measurement (`observed` without its own `sd`);
+    /// `None`: the unit's rated sd (docs/model.md, "Observations").
+    pub measurement_sd: Option<f64>,
 }
 
 /// An uncertain capability: `Normal(mean, sd²)`. `sd == 0` is a certain value.
@@ -341,6 +346,10 @@ pub struct Incident {
     pub placement: Placement,
     /// Units that must stay on (or go to) a task: the commander's word.
     pub pins: BTreeMap<UnitIdx, TaskIdx>,
+    /// Field readings (`observed` events) and the posterior they give;
+    /// empty in a file. Read the current capability through
+    /// [`Incident::belief`].
+    pub observations: Observations,
 }
 
 impl Incident {

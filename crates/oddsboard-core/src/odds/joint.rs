@@ -36,7 +36,7 @@
 
 use super::normal::ln_phi;
 use super::trait_ln_odds;
-use crate::model::{Incident, Need, Placement, TaskIdx, Tier};
+use crate::model::{Incident, Need, Placement, TaskIdx, Tier, UnitIdx};
 use rand::rngs::StdRng;
 use rand::{RngExt, SeedableRng};
 use serde::Serialize;
@@ -283,11 +283,21 @@ pub fn joint_odds(
         }
         count[i] += 1;
         let unit = &incident.units[u];
+        let rho = incident.unit_types[unit.type_idx].rho;
         for (k, r) in unit.ratings.iter().enumerate() {
-            mean[i * n_traits + k] += r.mean;
             let j = at(i, unit.type_idx, k);
-            s1[j] += r.sd;
-            s2[j] += r.sd * r.sd;
+            // Where readings touch (type, trait): Σ load and Σ own² instead.
+            let (m, a, b) =
+                match incident
+                    .observations
+                    .posterior(unit.type_idx, k, UnitIdx::new(u), *r, rho)
+                {
+                    Some(p) => (p.mean, p.load, p.own * p.own),
+                    None => (r.mean, r.sd, r.sd * r.sd),
+                };
+            mean[i * n_traits + k] += m;
+            s1[j] += a;
+            s2[j] += b;
         }
     }
     let mut out = JointOdds::certain(n);
@@ -304,13 +314,31 @@ pub fn joint_odds(
     let rho: Vec<f64> = incident.unit_types.iter().map(|t| t.rho).collect();
     let mut rel_err = 0.0;
     for k in 0..n_traits {
+        // Per type: (own-part weight, shared weight on Σ, loading per Σ).
+        // Touched by readings: the sums are Σ own² and Σ load already.
+        let w: Vec<(f64, f64, f64)> = rho
+            .iter()
+            .enumerate()
+            .map(|(ty, &r)| {
+                if incident.observations.touches(ty, k) {
+                    (1.0, 1.0, 1.0)
+                } else {
+                    (1.0 - r, r, r.sqrt())
+                }
+            })
+            .collect();
         let counting: Vec<usize> = (0..n)
             .filter(|&i| incident.tasks[set[i]].needs[k].counts())
             .collect();
         // Shared (type, trait) factors: ρ > 0 and spread on ≥ 2 tasks.
         let shared: Vec<usize> = (0..n_types)
             .filter(|&ty| {
-                rho[ty] > 0.0 && counting.iter().filter(|&&i| s1[at(i, ty, k)] > 0.0).count() >= 2
+                w[ty].2 > 0.0
+                    && counting
+                        .iter()
+                        .filter(|&&i| w[ty].2 * s1[at(i, ty, k)] > 0.0)
+                        .count()
+                        >= 2
             })
             .collect();
         out.shared_factors += shared.len();
@@ -319,9 +347,9 @@ pub fn joint_odds(
             let need = incident.tasks[set[i]].needs[k];
             let m = mean[i * n_traits + k];
             let mut var = 0.0;
-            for (ty, &r) in rho.iter().enumerate() {
+            for (ty, &(a, b, _)) in w.iter().enumerate() {
                 let j = at(i, ty, k);
-                var += (1.0 - r) * s2[j] + r * s1[j] * s1[j];
+                var += a * s2[j] + b * s1[j] * s1[j];
             }
             let ln_p = trait_ln_odds(m, var, need);
             out.ln_product += ln_p;
@@ -329,7 +357,7 @@ pub fn joint_odds(
                 .iter()
                 .enumerate()
                 .filter(|&(_, &ty)| s1[at(i, ty, k)] > 0.0)
-                .map(|(f, &ty)| (f, rho[ty].sqrt() * s1[at(i, ty, k)]))
+                .map(|(f, &ty)| (f, w[ty].2 * s1[at(i, ty, k)]))
                 .collect();
             if loads.is_empty() {
                 out.ln_odds += ln_p;
@@ -337,11 +365,11 @@ pub fn joint_odds(
             }
             // Conditional variance, summed directly (no cancellation).
             let mut cvar = need.sd * need.sd;
-            for (ty, &r) in rho.iter().enumerate() {
+            for (ty, &(a, b, _)) in w.iter().enumerate() {
                 let j = at(i, ty, k);
-                cvar += (1.0 - r) * s2[j];
+                cvar += a * s2[j];
                 if !shared.contains(&ty) {
-                    cvar += r * s1[j] * s1[j];
+                    cvar += b * s1[j] * s1[j];
                 }
             }
             rows.push(Row {

@@ -257,6 +257,9 @@ fn combine(
 /// `var = Σ_t [(1 − ρ_t)·Σ sd² + ρ_t·(Σ sd)²]`. Adding a unit of type t with
 /// sd s to a type whose running Σ sd is S changes it by `s² + 2ρ_t·S·s`, so
 /// the variance is kept as a running sum too; per type only Σ sd is kept.
+/// Where readings touch a (type, trait), the same slot keeps Σ load of the
+/// units' posteriors instead and a unit adds `own² + load² + 2·L·load`
+/// ([`crate::model::Belief`]); with no readings the two agree.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TaskTally {
     n_traits: usize,
@@ -314,7 +317,19 @@ impl TaskTally {
         let rho = incident.unit_types[t].rho;
         self.count += 1;
         self.type_count[t] += 1;
+        let obs = &incident.observations;
         for (k, r) in unit.ratings.iter().enumerate() {
+            // Readings touch this (type, trait): its slot sums loadings.
+            if let Some(b) = obs.posterior(t, k, u, *r, rho) {
+                self.mean[k] += b.mean;
+                if b.has_spread() {
+                    let s1 = &mut self.sd_sum[t * self.n_traits + k];
+                    self.var[k] += b.own * b.own + b.load * b.load + 2.0 * *s1 * b.load;
+                    *s1 += b.load;
+                    self.spread_units[k] += 1;
+                }
+                continue;
+            }
             self.mean[k] += r.mean;
             if r.sd > 0.0 {
                 let s1 = &mut self.sd_sum[t * self.n_traits + k];
@@ -333,7 +348,24 @@ impl TaskTally {
         self.count -= 1;
         self.type_count[t] -= 1;
         let last_of_type = self.type_count[t] == 0;
+        let obs = &incident.observations;
         for (k, r) in unit.ratings.iter().enumerate() {
+            if let Some(b) = obs.posterior(t, k, u, *r, rho) {
+                self.mean[k] -= b.mean;
+                if b.has_spread() {
+                    let s1 = &mut self.sd_sum[t * self.n_traits + k];
+                    *s1 -= b.load;
+                    if last_of_type {
+                        *s1 = 0.0;
+                    }
+                    self.var[k] -= b.own * b.own + b.load * b.load + 2.0 * *s1 * b.load;
+                    self.spread_units[k] -= 1;
+                    if self.spread_units[k] == 0 {
+                        self.var[k] = 0.0;
+                    }
+                }
+                continue;
+            }
             self.mean[k] -= r.mean;
             if r.sd > 0.0 {
                 let s1 = &mut self.sd_sum[t * self.n_traits + k];
@@ -418,17 +450,20 @@ pub fn evaluate_task(incident: &Incident, placement: &Placement, t: TaskIdx) -> 
         if !need.counts() {
             continue;
         }
-        let mean: f64 = units
-            .iter()
-            .map(|&u| incident.units[u].ratings[k].mean)
-            .sum();
+        let mean: f64 = units.iter().map(|&u| incident.belief(u, k).mean).sum();
         let mut var = 0.0;
         for ty in 0..n_types {
             let rho = incident.unit_types[ty].rho;
-            let sds = units
-                .iter()
-                .filter(|&&u| incident.units[u].type_idx == ty)
-                .map(|&u| incident.units[u].ratings[k].sd);
+            let of_type = units.iter().filter(|&&u| incident.units[u].type_idx == ty);
+            if incident.observations.touches(ty, k) {
+                // Posterior: Σ own² + (Σ load)² (docs/model.md, "Observations").
+                let (l1, o2) = of_type
+                    .map(|&u| incident.belief(u, k))
+                    .fold((0.0, 0.0), |(a, b), x| (a + x.load, b + x.own * x.own));
+                var += o2 + l1 * l1;
+                continue;
+            }
+            let sds = of_type.map(|&u| incident.units[u].ratings[k].sd);
             let (s1, s2) = sds.fold((0.0, 0.0), |(a, b), s| (a + s, b + s * s));
             var += (1.0 - rho) * s2 + rho * s1 * s1;
         }

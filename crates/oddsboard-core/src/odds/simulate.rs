@@ -26,7 +26,7 @@
 
 use super::joint::{JointOdds, JointOptions, joint_odds};
 use super::{evaluate_task, phi};
-use crate::model::{Incident, Need, Placement, TaskIdx};
+use crate::model::{Incident, Need, Placement, TaskIdx, UnitIdx};
 use rand::rngs::Xoshiro256PlusPlus;
 use rand::{RngExt, SeedableRng};
 use rand_distr::StandardNormal;
@@ -148,8 +148,9 @@ pub fn z_for_confidence(confidence: f64) -> f64 {
 struct Draw {
     task: usize,
     type_idx: usize,
-    /// (trait, mean, sd) for the traits that count for the unit's task.
-    traits: Vec<(usize, f64, f64)>,
+    /// (trait, mean, shared loading, own sd) for the traits that count for
+    /// the unit's task: its [`crate::model::Belief`].
+    traits: Vec<(usize, f64, f64, f64)>,
 }
 
 /// Runs the Monte Carlo of `placement` (see the module docs).
@@ -200,7 +201,10 @@ pub fn simulate(
             let unit = &incident.units[u];
             let traits = needs[s]
                 .iter()
-                .map(|&(k, _)| (k, unit.ratings[k].mean, unit.ratings[k].sd))
+                .map(|&(k, _)| {
+                    let b = incident.belief(UnitIdx::new(u), k);
+                    (k, b.mean, b.load, b.own)
+                })
                 .collect();
             Some(Draw {
                 task: s,
@@ -208,12 +212,6 @@ pub fn simulate(
                 traits,
             })
         })
-        .collect();
-    let shared_weight: Vec<f64> = incident.unit_types.iter().map(|t| t.rho.sqrt()).collect();
-    let own_weight: Vec<f64> = incident
-        .unit_types
-        .iter()
-        .map(|t| (1.0 - t.rho).sqrt())
         .collect();
 
     // A named algorithm (as in the solver), not StdRng, whose algorithm rand
@@ -229,12 +227,10 @@ pub fn simulate(
         }
         totals.iter_mut().for_each(|x| *x = 0.0);
         for d in &draws {
-            let a = shared_weight[d.type_idx];
-            let b = own_weight[d.type_idx];
-            for &(k, mean, sd) in &d.traits {
-                let value = if sd > 0.0 {
+            for &(k, mean, load, own_sd) in &d.traits {
+                let value = if load > 0.0 || own_sd > 0.0 {
                     let own: f64 = rng.sample(StandardNormal);
-                    mean + sd * (a * shared[d.type_idx * n_traits + k] + b * own)
+                    mean + load * shared[d.type_idx * n_traits + k] + own_sd * own
                 } else {
                     mean
                 };

@@ -130,6 +130,97 @@ pub struct OddsView {
     pub joint_odds: JointOddsView,
     /// How each joint figure was computed (method, error estimate, product).
     pub joint_detail: Vec<JointDetailView>,
+    /// Ratings moved by field readings (`observed`), the readings' own units
+    /// and their type-mates; left out when there are none.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub readings: Vec<RatingNow>,
+}
+
+/// A unit's rating in one trait as rated and as the readings now have it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RatingNow {
+    pub unit: String,
+    #[serde(rename = "trait")]
+    pub trait_id: String,
+    /// Unit of measure of the trait.
+    pub measure: String,
+    pub rated_mean: f64,
+    pub rated_sd: f64,
+    /// Posterior mean and sd given every reading (docs/model.md).
+    pub mean: f64,
+    pub sd: f64,
+    /// Readings of this unit; 0 for a type-mate moved through the shared
+    /// factor.
+    pub readings: usize,
+}
+
+impl RatingNow {
+    /// `rated 1900 ± 250 → now 1700 ± 110 (2 readings)`.
+    pub fn describe(&self) -> String {
+        let why = match self.readings {
+            0 => "through its type-mates' readings".to_string(),
+            1 => "1 reading".to_string(),
+            n => format!("{n} readings"),
+        };
+        format!(
+            "rated {} ± {} → now {} ± {} ({why})",
+            amount(self.rated_mean),
+            amount(self.rated_sd),
+            amount(self.mean),
+            amount(self.sd)
+        )
+    }
+}
+
+/// An amount for people: about three significant figures.
+pub fn amount(v: f64) -> String {
+    let a = v.abs();
+    let s = if a >= 100.0 || a == 0.0 {
+        format!("{v:.0}")
+    } else if a >= 10.0 {
+        format!("{v:.1}")
+    } else {
+        format!("{v:.2}")
+    };
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
+/// Every (roster unit, trait) whose belief differs from its rating, in
+/// roster then trait order.
+pub fn ratings_now(incident: &Incident) -> Vec<RatingNow> {
+    let mut out = Vec::new();
+    if incident.observations.is_empty() {
+        return out;
+    }
+    for (u, unit) in incident.roster() {
+        for (k, r) in unit.ratings.iter().enumerate() {
+            if !incident.observations.touches(unit.type_idx, k) {
+                continue;
+            }
+            let b = incident.belief(u, k);
+            let n = incident.observations.count(u, k);
+            let moved = (b.mean - r.mean).abs() > 1e-9 * (1.0 + r.mean.abs())
+                || (b.sd() - r.sd).abs() > 1e-9 * (1.0 + r.sd);
+            if n == 0 && !moved {
+                continue;
+            }
+            out.push(RatingNow {
+                unit: unit.id.clone(),
+                trait_id: incident.traits[k].id.clone(),
+                measure: incident.traits[k].unit.clone(),
+                rated_mean: r.mean,
+                rated_sd: r.sd,
+                mean: b.mean,
+                sd: b.sd(),
+                readings: n,
+            });
+        }
+    }
+    out
 }
 
 fn finite(x: f64) -> Option<f64> {
@@ -246,6 +337,7 @@ pub fn odds_view(incident: &Incident, placement: &Placement) -> OddsView {
         min_ln_odds: finite(min_ln),
         tasks,
         cautions: &crate::safety::CAUTIONS,
+        readings: ratings_now(incident),
     }
 }
 

@@ -1,7 +1,9 @@
 //! The after-action report: a Markdown document made from a log alone.
 
 use super::calibration::ReliabilityBin;
-use super::calibration::{brier_score, brier_score_two_class, reliability_table};
+use super::calibration::{
+    Murphy, THIN_BIN, brier_score, brier_score_two_class, murphy, reliability_table,
+};
 use super::timeline::{ClosedTask, Row, TierWorst, TimelineWalker};
 use crate::log::{Event, LogError, Move, OutcomeValue, Record};
 use crate::odds::text::{pct, pct_or_dash};
@@ -85,7 +87,26 @@ pub struct OutcomeLine {
     pub tier: &'static str,
     pub seq: u64,
     pub outcome: &'static str,
+    /// The forecast that stood while the task was worked.
     pub predicted: f64,
+    /// The record after which that forecast stood.
+    pub predicted_seq: u64,
+    /// Units were released to reserve before the close: the forecast is the
+    /// one from before the release.
+    pub released_before_close: bool,
+}
+
+/// A field reading and how it moved the odds.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ReadingLine {
+    pub seq: u64,
+    pub at: String,
+    pub event: String,
+    /// The unit's rating after it, in words (`rated … → now …`).
+    pub rating: String,
+    /// Open tasks whose odds moved by at least 0.05 percentage points:
+    /// (task, odds before, odds after).
+    pub moved: Vec<(String, f64, f64)>,
 }
 
 /// Everything the after-action report says, as data (`report --json`).
@@ -116,6 +137,10 @@ pub struct AfterAction {
     pub brier_score_two_class: Option<f64>,
     pub scored_tasks: usize,
     pub reliability: Vec<ReliabilityBin>,
+    /// Murphy's decomposition of the Brier score over the table's bins.
+    pub murphy: Option<Murphy>,
+    /// Field readings (`observed`, `observation_withdrawn`) in log order.
+    pub readings: Vec<ReadingLine>,
     pub notes: Vec<(u64, String)>,
     pub cautions: Vec<&'static str>,
 }
@@ -138,9 +163,37 @@ pub fn after_action(records: &[Record], source: &str) -> Result<AfterAction, Log
     let mut rows: Vec<Row> = vec![first_row];
     let mut proposals: Vec<ProposalTrack> = Vec::new();
     let mut closed: Vec<(u64, ClosedTask)> = Vec::new();
+    let mut readings: Vec<ReadingLine> = Vec::new();
     for r in rest {
         let before = rows.last().map_or([None; 3], |r| r.worst);
+        let odds_before: Vec<f64> = walker.ground().iter().map(|o| o.odds()).collect();
         let row = walker.step(r)?;
+        if let Event::Observed { unit, trait_id, .. }
+        | Event::ObservationWithdrawn { unit, trait_id, .. } = &r.event
+        {
+            let state = walker.state();
+            let rating = crate::odds::view::ratings_now(state)
+                .into_iter()
+                .find(|x| &x.unit == unit && &x.trait_id == trait_id)
+                .map_or_else(|| "rated as before".to_string(), |x| x.describe());
+            let moved = state
+                .tasks
+                .iter()
+                .enumerate()
+                .filter(|(_, t)| t.is_open())
+                .filter_map(|(t, task)| {
+                    let (a, b) = (odds_before.get(t).copied()?, walker.ground()[t].odds());
+                    ((a - b).abs() >= 5e-4).then(|| (task.id.clone(), a, b))
+                })
+                .collect();
+            readings.push(ReadingLine {
+                seq: r.seq,
+                at: time_of(&r.at),
+                event: r.event.describe(),
+                rating,
+                moved,
+            });
+        }
         match &r.event {
             Event::PlanProposed { .. } => {
                 if let Some(p) = proposals.last_mut()
@@ -270,12 +323,16 @@ pub fn after_action(records: &[Record], source: &str) -> Result<AfterAction, Log
                 seq: *seq,
                 outcome: c.outcome.as_str(),
                 predicted: c.predicted,
+                predicted_seq: c.predicted_seq,
+                released_before_close: c.released_before_close,
             })
             .collect(),
         brier_score: brier_score(&forecasts),
         brier_score_two_class: brier_score_two_class(&forecasts),
         scored_tasks: forecasts.len(),
         reliability: reliability_table(&forecasts, 10),
+        murphy: murphy(&forecasts, 10),
+        readings,
         notes: walker.replay().notes.clone(),
         cautions: crate::safety::CAUTIONS
             .iter()
@@ -363,6 +420,40 @@ pub fn render_markdown(a: &AfterAction) -> String {
     }
     let _ = writeln!(out);
 
+    if !a.readings.is_empty() {
+        let _ = writeln!(out, "## Field readings\n");
+        let _ = writeln!(
+            out,
+            "Each reading conditions the ratings (its unit's and, through the shared factor, its type-mates'); the odds of the open tasks it moved:\n"
+        );
+        let _ = writeln!(
+            out,
+            "| seq | time (UTC) | reading | rating after | odds moved |"
+        );
+        let _ = writeln!(out, "|---:|---|---|---|---|");
+        for x in &a.readings {
+            let moved = if x.moved.is_empty() {
+                "none".to_string()
+            } else {
+                x.moved
+                    .iter()
+                    .map(|(t, b, c)| format!("{} {} → {}", md_escape(t), pct(*b), pct(*c)))
+                    .collect::<Vec<_>>()
+                    .join("; ")
+            };
+            let _ = writeln!(
+                out,
+                "| {} | {} | {} | {} | {} |",
+                x.seq,
+                short_time(&x.at),
+                md_escape(&x.event),
+                md_escape(&x.rating),
+                moved
+            );
+        }
+        let _ = writeln!(out);
+    }
+
     let _ = writeln!(out, "## Proposals and what was done\n");
     if a.proposals.is_empty() {
         let _ = writeln!(out, "No plan was proposed in this log.\n");
@@ -403,67 +494,40 @@ pub fn render_markdown(a: &AfterAction) -> String {
     } else {
         let _ = writeln!(
             out,
-            "Predicted odds are those of the placement on the ground just before the task was closed.\n"
+            "Predicted odds are the forecast that stood while the task was worked: the ground's odds after the record named, which is the last before the close, or the last before its units began going back to reserve without replacement (a crew released before `task_closed` is not scored as a forecast of 0).\n"
         );
         let _ = writeln!(
             out,
-            "| task | tier | closed at seq | outcome | predicted odds |"
+            "| task | tier | closed at seq | outcome | predicted odds | forecast from |"
         );
-        let _ = writeln!(out, "|---|---|---:|---|---:|");
+        let _ = writeln!(out, "|---|---|---:|---|---:|---|");
         for o in &a.outcomes {
+            let from = if o.released_before_close {
+                format!("seq {}, before its units were released", o.predicted_seq)
+            } else {
+                format!("seq {}", o.predicted_seq)
+            };
             let _ = writeln!(
                 out,
-                "| {} | {} | {} | {} | {} |",
+                "| {} | {} | {} | {} | {} | {} |",
                 md_escape(&o.task),
                 o.tier,
                 o.seq,
                 o.outcome,
-                pct(o.predicted)
+                pct(o.predicted),
+                from
             );
         }
         let _ = writeln!(out);
     }
     let _ = writeln!(out, "### Calibration\n");
-    match a.brier_score {
-        None => {
-            let _ = writeln!(
-                out,
-                "No task closed as succeeded or failed, so there is nothing to score (cancelled tasks are left out).\n"
-            );
-        }
-        Some(bs) => {
-            let _ = writeln!(
-                out,
-                "Brier score (Brier 1950; mean of (odds − outcome)², outcome 1 if succeeded, 0 if failed; 0 is perfect, 0.25 is always saying 50 %): **{bs:.4}** over {} tasks (Brier's two-class form: {:.4}). Cancelled tasks are left out.\n",
-                a.scored_tasks,
-                a.brier_score_two_class.unwrap_or(f64::NAN)
-            );
-            let _ = writeln!(
-                out,
-                "| predicted odds | tasks | mean predicted | succeeded |"
-            );
-            let _ = writeln!(out, "|---|---:|---:|---:|");
-            for b in &a.reliability {
-                let _ = writeln!(
-                    out,
-                    "| {:.0}–{:.0} % | {} | {} | {} |",
-                    b.low * 100.0,
-                    b.high * 100.0,
-                    b.count,
-                    pct(b.mean_forecast),
-                    pct(b.observed)
-                );
-            }
-            let _ = writeln!(out);
-            if a.scored_tasks < 30 {
-                let _ = writeln!(
-                    out,
-                    "With only {} scored tasks this says little about calibration: read it as a prompt for debriefing, not as a verdict on the ratings.\n",
-                    a.scored_tasks
-                );
-            }
-        }
-    }
+    out.push_str(&calibration_markdown(
+        a.brier_score,
+        a.brier_score_two_class,
+        a.scored_tasks,
+        &a.reliability,
+        a.murphy.as_ref(),
+    ));
 
     if !a.notes.is_empty() {
         let _ = writeln!(out, "## Notes\n");
@@ -495,4 +559,139 @@ pub fn forecasts(closed: &[(u64, ClosedTask)]) -> Vec<(f64, bool)> {
             OutcomeValue::Cancelled => None,
         })
         .collect()
+}
+
+/// The calibration block: Brier score, Murphy's decomposition and the
+/// reliability table with counts, Wilson intervals and thin-bin warnings.
+/// Shared by the report of one log and `report --all`.
+pub fn calibration_markdown(
+    brier: Option<f64>,
+    brier_two_class: Option<f64>,
+    scored: usize,
+    bins: &[ReliabilityBin],
+    m: Option<&Murphy>,
+) -> String {
+    let mut out = String::new();
+    let Some(bs) = brier else {
+        let _ = writeln!(
+            out,
+            "No task closed as succeeded or failed, so there is nothing to score (cancelled tasks are left out).\n"
+        );
+        return out;
+    };
+    let _ = writeln!(
+        out,
+        "Brier score (Brier 1950; mean of (odds − outcome)², outcome 1 if succeeded, 0 if failed; 0 is perfect, 0.25 is always saying 50 %): **{bs:.4}** over {scored} tasks (Brier's two-class form: {:.4}). Cancelled tasks are left out.\n",
+        brier_two_class.unwrap_or(f64::NAN)
+    );
+    if let Some(m) = m {
+        let _ = writeln!(
+            out,
+            "Murphy's decomposition (Murphy 1973, over the bins below): reliability {:.4} (lower is better) − resolution {:.4} (higher is better) + uncertainty {:.4} (base rate {}){} = {:.4}.\n",
+            m.reliability,
+            m.resolution,
+            m.uncertainty,
+            pct(m.base_rate),
+            if m.within_bin.abs() >= 5e-5 {
+                format!(" + within-bin {:+.4}", m.within_bin)
+            } else {
+                String::new()
+            },
+            m.brier
+        );
+    }
+    let _ = writeln!(
+        out,
+        "| predicted odds | tasks | mean predicted | succeeded | share (95 % Wilson interval) |"
+    );
+    let _ = writeln!(out, "|---|---:|---:|---:|---|");
+    let mut thin = 0;
+    for b in bins {
+        thin += usize::from(b.thin);
+        let _ = writeln!(
+            out,
+            "| {:.0}–{:.0} % | {} | {} | {} | {} ({} – {}){} |",
+            b.low * 100.0,
+            b.high * 100.0,
+            b.count,
+            pct(b.mean_forecast),
+            b.happened,
+            pct(b.observed),
+            pct(b.observed_low),
+            pct(b.observed_high),
+            if b.thin { " thin" } else { "" }
+        );
+    }
+    let _ = writeln!(out);
+    if thin > 0 {
+        let _ = writeln!(
+            out,
+            "{thin} of {} bins hold fewer than {THIN_BIN} tasks (marked thin): their shares rest on too few outcomes to judge the ratings by; read the intervals, not the shares.\n",
+            bins.len()
+        );
+    }
+    if scored < 30 {
+        let _ = writeln!(
+            out,
+            "With only {scored} scored tasks this says little about calibration: read it as a prompt for debriefing, not as a verdict on the ratings.\n"
+        );
+    }
+    out
+}
+
+/// Calibration across many logs (`report --all`): every task closed as
+/// succeeded or failed, scored by the forecast that stood.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CalibrationAcross {
+    pub logs: Vec<String>,
+    pub scored_tasks: usize,
+    pub brier_score: Option<f64>,
+    pub brier_score_two_class: Option<f64>,
+    pub murphy: Option<Murphy>,
+    pub reliability: Vec<ReliabilityBin>,
+    pub cautions: Vec<&'static str>,
+}
+
+/// See [`CalibrationAcross`].
+pub fn calibration_across(reports: &[AfterAction]) -> CalibrationAcross {
+    let forecasts: Vec<(f64, bool)> = reports
+        .iter()
+        .flat_map(|a| &a.outcomes)
+        .filter_map(|o| match o.outcome {
+            "succeeded" => Some((o.predicted, true)),
+            "failed" => Some((o.predicted, false)),
+            _ => None,
+        })
+        .collect();
+    CalibrationAcross {
+        logs: reports.iter().map(|a| a.log.clone()).collect(),
+        scored_tasks: forecasts.len(),
+        brier_score: brier_score(&forecasts),
+        brier_score_two_class: brier_score_two_class(&forecasts),
+        murphy: murphy(&forecasts, 10),
+        reliability: reliability_table(&forecasts, 10),
+        cautions: crate::safety::CAUTIONS.to_vec(),
+    }
+}
+
+/// `report --all` as Markdown.
+pub fn render_across_markdown(c: &CalibrationAcross) -> String {
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "# Calibration across {} logs\n\n> Decision support only: the odds are only as good as the ratings.\n",
+        c.logs.len()
+    );
+    for l in &c.logs {
+        let _ = writeln!(out, "- `{l}`");
+    }
+    let _ = writeln!(out);
+    out.push_str(&calibration_markdown(
+        c.brier_score,
+        c.brier_score_two_class,
+        c.scored_tasks,
+        &c.reliability,
+        c.murphy.as_ref(),
+    ));
+    out
 }

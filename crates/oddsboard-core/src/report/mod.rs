@@ -11,8 +11,12 @@
 
 pub mod after_action;
 pub mod calibration;
+pub mod ratings;
 pub mod timeline;
 
-pub use after_action::{AfterAction, after_action, after_action_report, render_markdown};
+pub use after_action::{
+    AfterAction, CalibrationAcross, after_action, after_action_report, calibration_across,
+    render_across_markdown, render_markdown,
+};
 pub use calibration::{brier_score, reliability_table};
 pub use timeline::{ProposalOdds, Row, TimelineWalker, timeline};

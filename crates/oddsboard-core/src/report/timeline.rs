@@ -37,7 +37,25 @@ pub struct ClosedTask {
     pub task: String,
     pub tier: Tier,
     pub outcome: crate::log::OutcomeValue,
+    /// The forecast that stood while the task was worked (see [`Stood`]).
     pub predicted: f64,
+    /// The record after which those odds stood.
+    pub predicted_seq: u64,
+    /// True when the task's units were released to reserve before it was
+    /// closed, so the forecast is the one from before the release.
+    pub released_before_close: bool,
+}
+
+/// The odds that stood on a task while it was worked: updated after every
+/// record that changes them, except while the task's units are being
+/// released to reserve (a unit leaving it for reserve, still in service,
+/// with no replacement) — a crew sent back before `task_closed` must not
+/// turn a success into a forecast of 0. Units arriving again resume it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Stood {
+    pub odds: f64,
+    pub seq: u64,
+    pub frozen: bool,
 }
 
 /// One row of the timeline.
@@ -73,6 +91,8 @@ pub struct TimelineWalker {
     /// Ground odds per task (closed tasks included; they are skipped).
     odds: Vec<TaskOdds>,
     proposal: Option<ProposalOdds>,
+    /// The forecast that stood per task (index = task index).
+    stood: Vec<Stood>,
     /// Joint ground odds per tier and of all open tasks, recomputed only
     /// after records that change some task's odds.
     joint: (TierWorst, Option<f64>),
@@ -119,14 +139,23 @@ impl TimelineWalker {
         let replay = Replay::start(first)?;
         let state = &replay.state;
         let tallies = tallies(state, &state.placement);
-        let odds = crate::model::TaskIdx::range(state.tasks.len())
+        let odds: Vec<TaskOdds> = crate::model::TaskIdx::range(state.tasks.len())
             .map(|t| task_odds(state, &tallies[t], t))
             .collect();
         let joint = joint_of(state);
+        let stood = odds
+            .iter()
+            .map(|o: &TaskOdds| Stood {
+                odds: o.odds(),
+                seq: first.seq,
+                frozen: false,
+            })
+            .collect();
         let walker = TimelineWalker {
             replay,
             tallies,
             odds,
+            stood,
             proposal: None,
             joint,
         };
@@ -181,7 +210,9 @@ impl TimelineWalker {
                     task: task.clone(),
                     tier: self.replay.state.tasks[t].tier,
                     outcome: *outcome,
-                    predicted: self.odds[t].odds(),
+                    predicted: self.stood[t].odds,
+                    predicted_seq: self.stood[t].seq,
+                    released_before_close: self.stood[t].frozen,
                 })
             }
             _ => None,
@@ -199,6 +230,7 @@ impl TimelineWalker {
                 }
             }
         }
+        let ground_before = self.replay.state.placement.clone();
         self.replay.step(r)?;
         let state = &self.replay.state;
         for id in &touched {
@@ -214,6 +246,11 @@ impl TimelineWalker {
                 let t = TaskIdx::new(state.tasks.len() - 1);
                 self.tallies.push(TaskTally::for_incident(state));
                 self.odds.push(task_odds(state, &self.tallies[t], t));
+                self.stood.push(Stood {
+                    odds: self.odds[t].odds(),
+                    seq: r.seq,
+                    frozen: false,
+                });
                 dirty.push(t);
             }
             Event::NeedChanged { task, .. } | Event::TaskClosed { task, .. } => {
@@ -230,6 +267,27 @@ impl TimelineWalker {
         }
         for t in dirty {
             self.odds[t] = task_odds(state, &self.tallies[t], t);
+            if !state.tasks[t].is_open() {
+                continue;
+            }
+            let on = |p: &crate::model::Placement| p.units_on(t).count();
+            let (before, after) = (on(&ground_before), on(&state.placement));
+            let released = ground_before.0.iter().enumerate().any(|(u, &p)| {
+                let u = crate::model::UnitIdx::new(u);
+                p == Some(t)
+                    && state.placement.get(u).is_none()
+                    && state.units[u].status == crate::model::UnitStatus::Available
+            });
+            let s = &mut self.stood[t];
+            if after < before && released {
+                s.frozen = true;
+            } else if after > before {
+                s.frozen = false;
+            }
+            if !s.frozen {
+                s.odds = self.odds[t].odds();
+                s.seq = r.seq;
+            }
         }
         match &r.event {
             Event::PlanProposed { moves } => {

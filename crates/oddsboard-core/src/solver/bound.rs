@@ -83,9 +83,9 @@ pub fn ratio_orders(incident: &Incident) -> Vec<Vec<UnitIdx>> {
     (0..incident.traits.len())
         .map(|k| {
             let key = |u: UnitIdx| {
-                let r = incident.units[u].ratings[k];
-                if r.sd > 0.0 {
-                    r.mean / (r.sd * r.sd)
+                let r = incident.belief(u, k);
+                if r.has_spread() {
+                    r.mean / (r.sd() * r.sd())
                 } else {
                     f64::INFINITY
                 }
@@ -139,8 +139,8 @@ pub fn task_ln_upper_bound(
         buf.clear();
         for &u in &orders[k] {
             if may_join(u) {
-                let r = incident.units[u].ratings[k];
-                buf.push((r.mean, r.sd));
+                let r = incident.belief(u, k);
+                buf.push((r.mean, r.sd()));
             }
         }
         let z = z_upper_bound(

@@ -292,9 +292,10 @@ pub fn branch_and_bound(
     for &u in &ctx.movable {
         let unit = &inc.units[u];
         let mut sig = vec![unit.type_idx as u64, option_index(ground_of(u)) as u64];
-        for r in &unit.ratings {
+        for k in 0..unit.ratings.len() {
+            let r = inc.belief(u, k); // readings make a unit unlike its mates
             sig.push(r.mean.to_bits());
-            sig.push(r.sd.to_bits());
+            sig.push(r.sd().to_bits());
         }
         let next = groups.len();
         group_of[u] = *groups.entry(sig).or_insert(next);

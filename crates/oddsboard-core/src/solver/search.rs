@@ -66,9 +66,10 @@ impl<'a> Ctx<'a> {
         for u in crate::model::UnitIdx::range(inc.units.len()) {
             let unit = &inc.units[u];
             let mut sig = vec![unit.type_idx as u64, u64::from(pinned[u].is_some())];
-            for r in &unit.ratings {
+            for k in 0..unit.ratings.len() {
+                let r = inc.belief(u, k); // readings make a unit unlike its mates
                 sig.push(r.mean.to_bits());
-                sig.push(r.sd.to_bits());
+                sig.push(r.sd().to_bits());
             }
             let next = groups.len();
             group.push(*groups.entry(sig).or_insert(next));
