@@ -109,6 +109,8 @@ pub enum Overlay {
     #[default]
     None,
     Help,
+    /// Every safety note in full (when the panel hides some).
+    Notes,
     Form(Form),
 }
 

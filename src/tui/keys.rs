@@ -23,11 +23,15 @@ pub(super) fn on_key(state: &mut AppState, key: KeyEvent) -> Vec<Effect> {
         return vec![Effect::Quit];
     }
     match &mut state.overlay {
-        Overlay::Help => {
+        Overlay::Help | Overlay::Notes => {
             state.overlay = Overlay::None;
             if matches!(
                 key.code,
-                KeyCode::Esc | KeyCode::Char('?') | KeyCode::Enter | KeyCode::Char('q')
+                KeyCode::Esc
+                    | KeyCode::Char('?')
+                    | KeyCode::Char('N')
+                    | KeyCode::Enter
+                    | KeyCode::Char('q')
             ) {
                 return Vec::new();
             }
@@ -65,6 +69,7 @@ pub(super) fn on_key(state: &mut AppState, key: KeyEvent) -> Vec<Effect> {
             return vec![Effect::Quit];
         }
         KeyCode::Char('?') => state.overlay = Overlay::Help,
+        KeyCode::Char('N') => state.overlay = Overlay::Notes,
         KeyCode::Up | KeyCode::Char('k') => state.selected = state.selected.saturating_sub(1),
         KeyCode::Down | KeyCode::Char('j') if state.selected + 1 < n_tasks => {
             state.selected += 1;

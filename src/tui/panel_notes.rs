@@ -6,8 +6,9 @@
 
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::style::Style;
 use ratatui::text::Line;
-use ratatui::widgets::{Block, Paragraph, Wrap};
+use ratatui::widgets::{Block, Clear, Paragraph, Wrap};
 
 use super::app::{AdviceStatus, AppState};
 use super::format::keep_percent;
@@ -147,38 +148,21 @@ fn wrapped_rows(s: &str, width: usize) -> usize {
 /// border): every note and advice line wrapped, and the caution.
 pub fn rows_wanted(state: &AppState, width: u16) -> u16 {
     let inner = width.saturating_sub(2).max(1) as usize;
-    let wrapped = |s: &str| wrapped_rows(s, inner);
-    let notes = contextual(state);
-    let mut rows: usize = if notes.is_empty() {
-        1
-    } else {
-        notes.iter().map(|n| wrapped(&format!("! {n}"))).sum()
-    };
-    rows += advice_lines(state)
+    // The same lines the panel draws, so the count matches what is shown.
+    let rows: usize = note_lines(state)
         .iter()
-        .map(|(_, t)| wrapped(t))
-        .sum::<usize>();
+        .map(|l| wrapped_rows(&l.to_string(), inner))
+        .sum();
     let caution = caution(width.saturating_sub(2));
-    let caution_rows = (caution.chars().count() / inner + 1).clamp(2, 5);
+    let caution_rows = wrapped_rows(caution, inner);
     (rows + caution_rows + 2).min(u16::MAX as usize) as u16
 }
 
-pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
+/// Every note and advice line as the panel shows it, most urgent first,
+/// control characters escaped.
+fn note_lines(state: &AppState) -> Vec<Line<'static>> {
     let th = &state.theme;
     let notes = contextual(state);
-    let title = if notes.is_empty() {
-        " Safety notes ".to_string()
-    } else {
-        format!(" Safety notes ({}, most urgent first) ", notes.len())
-    };
-    let block = Block::bordered().title(title);
-    let inner = block.inner(area);
-    frame.render_widget(block, area);
-    // The caution keeps its rows whatever the height.
-    let caution = caution(inner.width);
-    let caution_rows = (caution.chars().count() as u16 / inner.width.max(1) + 1).clamp(2, 5);
-    let [notes_area, caution_area] =
-        Layout::vertical([Constraint::Fill(1), Constraint::Length(caution_rows)]).areas(inner);
     let advice = advice_lines(state);
     let mut lines: Vec<Line> = if notes.is_empty() {
         vec![Line::styled("No contextual notes.", th.dim())]
@@ -196,14 +180,104 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
         };
         Line::styled(keep_percent(&text), style)
     }));
+    super::format::clean_lines(lines)
+}
+
+/// Every note in full over the board (key N), for when the panel hides
+/// some: the caution last, as in the panel.
+pub fn render_all(state: &AppState, frame: &mut Frame, area: Rect) {
+    let w = 100.min(area.width);
+    let inner = w.saturating_sub(2).max(1) as usize;
+    let mut lines = note_lines(state);
+    lines.push(Line::raw(""));
+    lines.push(Line::styled(safety::CAUTION_SCREEN, state.theme.dim()));
+    lines.push(Line::styled("Esc or N closes this list", state.theme.dim()));
+    let rows: usize = lines
+        .iter()
+        .map(|l| wrapped_rows(&l.to_string(), inner))
+        .sum();
+    let h = (rows + 2).min(area.height as usize) as u16;
+    let popup = area.centered(Constraint::Length(w), Constraint::Length(h));
+    frame.render_widget(Clear, popup);
     frame.render_widget(
-        Paragraph::new(super::format::clean_lines(lines)).wrap(Wrap { trim: true }),
-        notes_area,
+        Paragraph::new(lines)
+            .wrap(Wrap { trim: true })
+            .block(Block::bordered().title(" Safety notes, all ")),
+        popup,
     );
+}
+
+pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
+    let th = &state.theme;
+    let notes = contextual(state);
+    let title = if notes.is_empty() {
+        " Safety notes ".to_string()
+    } else {
+        format!(" Safety notes ({}, most urgent first) ", notes.len())
+    };
+    let block = Block::bordered().title(title);
+    let inner = block.inner(area);
+    frame.render_widget(block, area);
+    // The caution keeps its rows whatever the height.
+    let caution = caution(inner.width);
+    let caution_rows =
+        wrapped_rows(caution, inner.width.max(1) as usize).min(u16::MAX as usize) as u16;
+    let [notes_area, caution_area] =
+        Layout::vertical([Constraint::Fill(1), Constraint::Length(caution_rows)]).areas(inner);
+    let lines = whole_notes(
+        note_lines(state),
+        notes_area.width as usize,
+        notes_area.height as usize,
+        th.warning(),
+    );
+    frame.render_widget(Paragraph::new(lines).wrap(Wrap { trim: true }), notes_area);
     frame.render_widget(
         Paragraph::new(Line::styled(caution, th.dim())).wrap(Wrap { trim: true }),
         caution_area,
     );
+}
+
+/// The notes that fit whole in `rows` rows of `width` cells, most urgent
+/// first; when some do not, the last row says how many are hidden and how
+/// to list them, so no note is ever cut mid-sentence.
+fn whole_notes(
+    lines: Vec<Line<'_>>,
+    width: usize,
+    rows: usize,
+    more_style: Style,
+) -> Vec<Line<'_>> {
+    let width = width.max(1);
+    let need: Vec<usize> = lines
+        .iter()
+        .map(|l| wrapped_rows(&l.to_string(), width))
+        .collect();
+    if need.iter().sum::<usize>() <= rows {
+        return lines;
+    }
+    let mut used = 0;
+    let mut keep = 0;
+    for n in &need {
+        if used + n + 1 > rows {
+            break;
+        }
+        used += n;
+        keep += 1;
+    }
+    // Hidden contextual notes ("! …") and advice lines, counted apart.
+    let notes = lines[keep..]
+        .iter()
+        .filter(|l| l.to_string().starts_with("! "))
+        .count();
+    let advice = lines.len() - keep - notes;
+    let mut out: Vec<Line> = lines.into_iter().take(keep).collect();
+    let what = match (notes, advice) {
+        (n, 0) => super::format::count(n, "more note", "more notes"),
+        (0, a) => format!("{a} more advice"),
+        (n, a) => format!("{n} note{}, {a} advice", if n == 1 { "" } else { "s" }),
+    };
+    let more = format!("+{what} · N lists all");
+    out.push(Line::styled(super::format::fit(&more, width), more_style));
+    out
 }
 
 #[cfg(test)]

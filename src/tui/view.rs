@@ -60,9 +60,11 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     let (picture_h, log_min) = match body.height {
         0..36 if state.replay.is_some() => (8, 8),
         _ if state.replay.is_some() && body.height < 45 => (11, 12),
-        0..36 => (8, 4),
-        36..50 => (14, 6),
-        _ => (20, 8),
+        // The log keeps three rows inside its border: life-safety notes
+        // outrank log history.
+        0..36 => (8, 5),
+        36..50 => (14, 5),
+        _ => (20, 5),
     };
     // The notes take the rows their text needs (up to what leaves the log
     // its minimum), the log the rest.
@@ -84,6 +86,7 @@ pub fn render(state: &AppState, frame: &mut Frame) {
 
     match &state.overlay {
         Overlay::Help => panel_help::render(state, frame, area),
+        Overlay::Notes => panel_notes::render_all(state, frame, area),
         Overlay::Form(form) => super::form::render(form, &state.theme, frame, area),
         Overlay::None => {}
     }
