@@ -302,3 +302,60 @@ fn notes_are_whole_and_outrank_the_log() {
         }
     }
 }
+
+/// The units panel uses its rows: while any unit is folded onto a packed
+/// line (no row of its own), no row of the panel is empty. Every unit is
+/// named, and a unit on its own row shows its type and the target of its
+/// proposed move whole.
+#[test]
+fn units_panel_fills_its_rows_before_folding() {
+    for (name, s) in states_with_notes() {
+        let inc = &s.incident;
+        for (w, h) in SIZES {
+            let screen = cells(&draw(&s, w, h));
+            let rows = panel(&screen, "Units");
+            let text = rows.join("\n");
+            let mut folded = Vec::new();
+            for (u, unit) in inc.roster() {
+                let ty = &inc.unit_types[unit.type_idx].id;
+                let own = rows.iter().find(|r| {
+                    let mut f = r.split_whitespace();
+                    r.starts_with("  ")
+                        && f.next().map(|t| t.trim_end_matches(['*', '→'])) == Some(&unit.id)
+                        && f.next() == Some(ty.as_str())
+                });
+                match own {
+                    Some(row) => {
+                        if let Some(m) = s
+                            .proposal
+                            .as_ref()
+                            .and_then(|p| p.moves.iter().find(|m| m.unit == u))
+                        {
+                            let to = oddsboard::tui::board::place_name(inc, m.to);
+                            assert!(
+                                row.trim_end().ends_with(&format!("→ {to}")),
+                                "{name} {w}×{h}: move cut: {row}"
+                            );
+                        }
+                    }
+                    None => {
+                        assert!(
+                            text.split([' ', '\n'])
+                                .any(|t| t.trim_end_matches(['*', '→']) == unit.id),
+                            "{name} {w}×{h}: {} not in the units panel:\n{text}",
+                            unit.id
+                        );
+                        folded.push(unit.id.clone());
+                    }
+                }
+            }
+            if !folded.is_empty() {
+                let empty = rows.iter().filter(|r| r.trim().is_empty()).count();
+                assert_eq!(
+                    empty, 0,
+                    "{name} {w}×{h}: {empty} empty rows while {folded:?} are folded:\n{text}"
+                );
+            }
+        }
+    }
+}
