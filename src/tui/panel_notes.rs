@@ -275,7 +275,10 @@ fn whole_notes(
         (0, a) => format!("{a} more advice"),
         (n, a) => format!("{n} note{}, {a} advice", if n == 1 { "" } else { "s" }),
     };
-    let more = format!("+{what} · N lists all");
+    let mut more = format!("+{what} · N lists all");
+    if more.chars().count() > width {
+        more = format!("+{what} · N: all");
+    }
     out.push(Line::styled(super::format::fit(&more, width), more_style));
     out
 }
