@@ -419,3 +419,29 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
         area,
     );
 }
+
+#[cfg(test)]
+mod tests {
+    use super::pack;
+    use ratatui::text::Span;
+
+    fn rows(tokens: &[&str], width: usize, max_rows: usize) -> Vec<String> {
+        let tokens: Vec<String> = tokens.iter().map(|t| t.to_string()).collect();
+        pack(Span::raw("head "), &tokens, " ", width, max_rows)
+            .iter()
+            .map(|l| l.to_string())
+            .collect()
+    }
+
+    // Laid out by hand: rows of at most 12 cells, continuations indented.
+    #[test]
+    fn packs_tokens_into_rows() {
+        assert_eq!(rows(&["aa", "bb", "cc"], 12, 9), ["head aa bb", "  cc"]);
+        assert_eq!(rows(&[], 12, 9), ["head —"]);
+        // Two rows at most: the last ends with the count of the rest.
+        assert_eq!(
+            rows(&["aa", "bb", "cc", "dd", "ee", "ff", "gg"], 12, 2),
+            ["head aa bb", "  cc +4 more"]
+        );
+    }
+}
