@@ -144,18 +144,34 @@ fn wrapped_rows(s: &str, width: usize) -> usize {
     rows
 }
 
-/// Rows (borders included) the panel wants at `width` (outside the
-/// border): every note and advice line wrapped, and the caution.
-pub fn rows_wanted(state: &AppState, width: u16) -> u16 {
+/// Rows (borders included) the panel takes at `width` (outside the
+/// border) when it may have up to `room`: every note and advice line
+/// wrapped, and the caution; when they do not all fit, the whole notes
+/// that do and the line counting the rest (the rows a note too long for
+/// what is left would have had go back to the panel below).
+pub fn rows_within(state: &AppState, width: u16, room: u16) -> u16 {
     let inner = width.saturating_sub(2).max(1) as usize;
+    let caution_rows = wrapped_rows(caution(width.saturating_sub(2)), inner);
     // The same lines the panel draws, so the count matches what is shown.
-    let rows: usize = note_lines(state)
-        .iter()
-        .map(|l| wrapped_rows(&l.to_string(), inner))
-        .sum();
-    let caution = caution(width.saturating_sub(2));
-    let caution_rows = wrapped_rows(caution, inner);
-    (rows + caution_rows + 2).min(u16::MAX as usize) as u16
+    let lines = note_lines(state);
+    let count = |lines: &[Line]| -> usize {
+        lines
+            .iter()
+            .map(|l| wrapped_rows(&l.to_string(), inner))
+            .sum()
+    };
+    let mut rows = count(&lines);
+    let frame = caution_rows + 2;
+    if rows + frame > room as usize {
+        let fit = whole_notes(
+            lines,
+            inner,
+            (room as usize).saturating_sub(frame),
+            Style::default(),
+        );
+        rows = count(&fit);
+    }
+    (rows + frame).min(u16::MAX as usize) as u16
 }
 
 /// Every note and advice line as the panel shows it, most urgent first,

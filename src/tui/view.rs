@@ -69,7 +69,8 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     // The notes take the rows their text needs (up to what leaves the log
     // its minimum), the log the rest.
     let notes_room = body.height.saturating_sub(picture_h + log_min);
-    let notes_h = panel_notes::rows_wanted(state, right.width).clamp(6.min(notes_room), notes_room);
+    let notes_h = panel_notes::rows_within(state, right.width, notes_room)
+        .clamp(6.min(notes_room), notes_room);
     let [picture, notes, log] = Layout::vertical([
         Constraint::Length(picture_h),
         Constraint::Length(notes_h),
