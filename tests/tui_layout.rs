@@ -367,3 +367,42 @@ fn units_panel_fills_its_rows_before_folding() {
         }
     }
 }
+
+/// The full list of notes (N) on a screen too short for it keeps the
+/// caution at its foot, says it scrolls, and scrolled to its end shows the
+/// last note's end.
+#[test]
+fn the_notes_list_scrolls_under_its_caution() {
+    let (name, s) = states_with_notes()
+        .into_iter()
+        .find(|(n, _)| n == "river-flood with a proposal")
+        .expect("river-flood state");
+    let all = oddsboard::tui::panel_notes::contextual(&s);
+    let last = words(all.last().expect("notes"));
+    let tail: String = last
+        .split(' ')
+        .rev()
+        .take(3)
+        .collect::<Vec<_>>()
+        .into_iter()
+        .rev()
+        .collect::<Vec<_>>()
+        .join(" ");
+    let screen = |scroll: u16| {
+        let mut t = ratatui::Terminal::new(ratatui::backend::TestBackend::new(60, 16)).unwrap();
+        t.draw(|f| oddsboard::tui::panel_notes::render_all(&s, f, f.area(), scroll))
+            .unwrap();
+        let rows = panel(&cells(t.backend()), "Safety notes, all");
+        words(&rows.join(" "))
+    };
+    let top = screen(0);
+    assert!(top.contains("Decision support only"), "{name}: {top}");
+    assert!(top.contains("scroll"), "{name}: {top}");
+    assert!(
+        !top.contains(&tail),
+        "{name}: the list fits after all: {top}"
+    );
+    let end = screen(u16::MAX);
+    assert!(end.contains(&tail), "{name}: scrolled to the end: {end}");
+    assert!(end.contains("Decision support only"), "{name}: {end}");
+}

@@ -200,27 +200,52 @@ fn note_lines(state: &AppState) -> Vec<Line<'static>> {
 }
 
 /// Every note in full over the board (key N), for when the panel hides
-/// some: the caution last, as in the panel.
-pub fn render_all(state: &AppState, frame: &mut Frame, area: Rect) {
+/// some, scrolled down `scroll` rows when taller than the screen; the
+/// caution stays at the bottom, as in the panel.
+pub fn render_all(state: &AppState, frame: &mut Frame, area: Rect, scroll: u16) {
+    let th = &state.theme;
     let w = 100.min(area.width);
-    let inner = w.saturating_sub(2).max(1) as usize;
-    let mut lines = note_lines(state);
-    lines.push(Line::raw(""));
-    lines.push(Line::styled(safety::CAUTION_SCREEN, state.theme.dim()));
-    lines.push(Line::styled("Esc or N closes this list", state.theme.dim()));
+    let inner_w = w.saturating_sub(2).max(1) as usize;
+    let lines = note_lines(state);
     let rows: usize = lines
         .iter()
-        .map(|l| wrapped_rows(&l.to_string(), inner))
+        .map(|l| wrapped_rows(&l.to_string(), inner_w))
         .sum();
-    let h = (rows + 2).min(area.height as usize) as u16;
+    let caution_rows = wrapped_rows(safety::CAUTION_SCREEN, inner_w);
+    let h = (rows + caution_rows + 4).min(area.height as usize) as u16;
     let popup = area.centered(Constraint::Length(w), Constraint::Length(h));
+    let block = Block::bordered().title(" Safety notes, all ");
+    let inner = block.inner(popup);
+    let [notes_area, caution_area, hint_area] = Layout::vertical([
+        Constraint::Fill(1),
+        Constraint::Length(caution_rows.min(u16::MAX as usize) as u16),
+        Constraint::Length(1),
+    ])
+    .areas(inner);
+    let max_scroll = rows.saturating_sub(notes_area.height as usize);
+    let scroll = (scroll as usize).min(max_scroll);
+    let hint = if max_scroll > 0 {
+        format!(
+            "rows {}–{} of {rows} · ↑↓ PgUp PgDn scroll · Esc or N closes",
+            scroll + 1,
+            scroll + notes_area.height as usize
+        )
+    } else {
+        "Esc or N closes this list".to_string()
+    };
     frame.render_widget(Clear, popup);
+    frame.render_widget(block, popup);
     frame.render_widget(
         Paragraph::new(lines)
             .wrap(Wrap { trim: true })
-            .block(Block::bordered().title(" Safety notes, all ")),
-        popup,
+            .scroll((scroll.min(u16::MAX as usize) as u16, 0)),
+        notes_area,
     );
+    frame.render_widget(
+        Paragraph::new(Line::styled(safety::CAUTION_SCREEN, th.dim())).wrap(Wrap { trim: true }),
+        caution_area,
+    );
+    frame.render_widget(Paragraph::new(Line::styled(hint, th.dim())), hint_area);
 }
 
 pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {

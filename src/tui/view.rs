@@ -87,7 +87,7 @@ pub fn render(state: &AppState, frame: &mut Frame) {
 
     match &state.overlay {
         Overlay::Help => panel_help::render(state, frame, area),
-        Overlay::Notes => panel_notes::render_all(state, frame, area),
+        Overlay::Notes(scroll) => panel_notes::render_all(state, frame, area, *scroll),
         Overlay::Form(form) => super::form::render(form, &state.theme, frame, area),
         Overlay::None => {}
     }
