@@ -304,14 +304,18 @@ fn whole_notes(
         used += n;
         keep += 1;
     }
-    // Hidden contextual notes ("! …") and advice lines, counted apart.
-    let notes = lines[keep..]
-        .iter()
-        .filter(|l| l.to_string().starts_with("! "))
-        .count();
-    let advice = lines.len() - keep - notes;
+    // Hidden contextual notes ("! …") and advice notes ("» …") counted
+    // apart; a hidden status line ("advice: updating…") is neither.
+    let hidden = |prefix: &str| {
+        lines[keep..]
+            .iter()
+            .filter(|l| l.to_string().starts_with(prefix))
+            .count()
+    };
+    let (notes, advice) = (hidden("! "), hidden("» "));
     let mut out: Vec<Line> = lines.into_iter().take(keep).collect();
     let what = match (notes, advice) {
+        (0, 0) => "advice status".to_string(),
         (n, 0) => super::format::count(n, "more note", "more notes"),
         (0, a) => format!("{a} more advice"),
         (n, a) => format!("{n} note{}, {a} advice", if n == 1 { "" } else { "s" }),
@@ -326,7 +330,34 @@ fn whole_notes(
 
 #[cfg(test)]
 mod tests {
-    use super::wrapped_rows;
+    use super::{whole_notes, wrapped_rows};
+    use ratatui::style::Style;
+    use ratatui::text::Line;
+
+    // Laid out by hand at 40 cells: the first note takes 2 rows, the
+    // others 1; in 3 rows the first stays whole and the last row counts
+    // the hidden note and advice.
+    #[test]
+    fn notes_shown_whole_or_counted() {
+        let first = format!("! {}", ["word"; 12].join(" "));
+        let lines = || {
+            vec![
+                Line::raw(first.clone()),
+                Line::raw("! short"),
+                Line::raw("» advice, info: also short"),
+            ]
+        };
+        let s = |v: Vec<Line>| v.iter().map(|l| l.to_string()).collect::<Vec<_>>();
+        assert_eq!(s(whole_notes(lines(), 40, 4, Style::default())), s(lines()));
+        assert_eq!(
+            s(whole_notes(lines(), 40, 3, Style::default())),
+            [first.clone(), "+1 note, 1 advice · N lists all".to_string()]
+        );
+        assert_eq!(
+            s(whole_notes(lines(), 40, 2, Style::default())),
+            ["+2 notes, 1 advice · N lists all"]
+        );
+    }
 
     // Counted by hand: greedy word wrap as ratatui's `Wrap` lays it out.
     #[test]
