@@ -505,6 +505,21 @@ fn record_a_field_reading_through_the_form_and_undo_it() {
     );
     assert_matches_log(&b);
     assert_ne!(b.state.incident, before, "the reading moved the belief");
+    // The units panel lists it, within a small panel too.
+    for rows in [usize::MAX, 12] {
+        let text: Vec<String> = oddsboard::tui::panel_units::lines_for(&b.state, rows, 80)
+            .iter()
+            .map(|l| l.to_string())
+            .collect();
+        assert!(
+            text.iter().any(|l| l.starts_with("Field readings (1)")),
+            "{text:?}"
+        );
+        assert!(
+            text.iter().any(|l| l.contains("W1 water: rated")),
+            "{text:?}"
+        );
+    }
     b.key(KeyCode::Char('u'));
     assert_matches_log(&b);
 }

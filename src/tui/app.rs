@@ -110,6 +110,9 @@ pub enum Overlay {
     #[default]
     None,
     Help,
+    /// Every safety note in full (when the panel hides some), scrolled
+    /// down by this many rows.
+    Notes(u16),
     Form(Form),
 }
 

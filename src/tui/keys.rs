@@ -23,6 +23,28 @@ pub(super) fn on_key(state: &mut AppState, key: KeyEvent) -> Vec<Effect> {
         return vec![Effect::Quit];
     }
     match &mut state.overlay {
+        Overlay::Notes(scroll) => {
+            // ↑↓ and PgUp/PgDn scroll a list taller than the screen (drawing
+            // stops at its end); any other key closes it.
+            match key.code {
+                KeyCode::Down | KeyCode::Char('j') => *scroll = scroll.saturating_add(1),
+                KeyCode::Up | KeyCode::Char('k') => *scroll = scroll.saturating_sub(1),
+                KeyCode::PageDown => *scroll = scroll.saturating_add(10),
+                KeyCode::PageUp => *scroll = scroll.saturating_sub(10),
+                _ => {
+                    state.overlay = Overlay::None;
+                    if matches!(
+                        key.code,
+                        KeyCode::Esc | KeyCode::Char('N') | KeyCode::Enter | KeyCode::Char('q')
+                    ) {
+                        return Vec::new();
+                    }
+                }
+            }
+            if matches!(state.overlay, Overlay::Notes(_)) {
+                return Vec::new();
+            }
+        }
         Overlay::Help => {
             state.overlay = Overlay::None;
             if matches!(
@@ -65,6 +87,7 @@ pub(super) fn on_key(state: &mut AppState, key: KeyEvent) -> Vec<Effect> {
             return vec![Effect::Quit];
         }
         KeyCode::Char('?') => state.overlay = Overlay::Help,
+        KeyCode::Char('N') => state.overlay = Overlay::Notes(0),
         KeyCode::Up | KeyCode::Char('k') => state.selected = state.selected.saturating_sub(1),
         KeyCode::Down | KeyCode::Char('j') if state.selected + 1 < n_tasks => {
             state.selected += 1;

@@ -46,6 +46,7 @@ pub fn keys(mode: Mode) -> Vec<(&'static str, &'static str)> {
             "close a form or this help (any key above works from here)",
         ),
         ("?", "this help"),
+        ("N", "every safety note in full (when the panel hides some)"),
         ("q  Ctrl-C", "quit (everything is already in the log)"),
     ]);
     k

@@ -6,8 +6,9 @@
 
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::style::Style;
 use ratatui::text::Line;
-use ratatui::widgets::{Block, Paragraph, Wrap};
+use ratatui::widgets::{Block, Clear, Paragraph, Wrap};
 
 use super::app::{AdviceStatus, AppState};
 use super::format::keep_percent;
@@ -143,42 +144,41 @@ fn wrapped_rows(s: &str, width: usize) -> usize {
     rows
 }
 
-/// Rows (borders included) the panel wants at `width` (outside the
-/// border): every note and advice line wrapped, and the caution.
-pub fn rows_wanted(state: &AppState, width: u16) -> u16 {
+/// Rows (borders included) the panel takes at `width` (outside the
+/// border) when it may have up to `room`: every note and advice line
+/// wrapped, and the caution; when they do not all fit, the whole notes
+/// that do and the line counting the rest (the rows a note too long for
+/// what is left would have had go back to the panel below).
+pub fn rows_within(state: &AppState, width: u16, room: u16) -> u16 {
     let inner = width.saturating_sub(2).max(1) as usize;
-    let wrapped = |s: &str| wrapped_rows(s, inner);
-    let notes = contextual(state);
-    let mut rows: usize = if notes.is_empty() {
-        1
-    } else {
-        notes.iter().map(|n| wrapped(&format!("! {n}"))).sum()
+    let caution_rows = wrapped_rows(caution(width.saturating_sub(2)), inner);
+    // The same lines the panel draws, so the count matches what is shown.
+    let lines = note_lines(state);
+    let count = |lines: &[Line]| -> usize {
+        lines
+            .iter()
+            .map(|l| wrapped_rows(&l.to_string(), inner))
+            .sum()
     };
-    rows += advice_lines(state)
-        .iter()
-        .map(|(_, t)| wrapped(t))
-        .sum::<usize>();
-    let caution = caution(width.saturating_sub(2));
-    let caution_rows = (caution.chars().count() / inner + 1).clamp(2, 5);
-    (rows + caution_rows + 2).min(u16::MAX as usize) as u16
+    let mut rows = count(&lines);
+    let frame = caution_rows + 2;
+    if rows + frame > room as usize {
+        let fit = whole_notes(
+            lines,
+            inner,
+            (room as usize).saturating_sub(frame),
+            Style::default(),
+        );
+        rows = count(&fit);
+    }
+    (rows + frame).min(u16::MAX as usize) as u16
 }
 
-pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
+/// Every note and advice line as the panel shows it, most urgent first,
+/// control characters escaped.
+fn note_lines(state: &AppState) -> Vec<Line<'static>> {
     let th = &state.theme;
     let notes = contextual(state);
-    let title = if notes.is_empty() {
-        " Safety notes ".to_string()
-    } else {
-        format!(" Safety notes ({}, most urgent first) ", notes.len())
-    };
-    let block = Block::bordered().title(title);
-    let inner = block.inner(area);
-    frame.render_widget(block, area);
-    // The caution keeps its rows whatever the height.
-    let caution = caution(inner.width);
-    let caution_rows = (caution.chars().count() as u16 / inner.width.max(1) + 1).clamp(2, 5);
-    let [notes_area, caution_area] =
-        Layout::vertical([Constraint::Fill(1), Constraint::Length(caution_rows)]).areas(inner);
     let advice = advice_lines(state);
     let mut lines: Vec<Line> = if notes.is_empty() {
         vec![Line::styled("No contextual notes.", th.dim())]
@@ -196,19 +196,168 @@ pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
         };
         Line::styled(keep_percent(&text), style)
     }));
+    super::format::clean_lines(lines)
+}
+
+/// Every note in full over the board (key N), for when the panel hides
+/// some, scrolled down `scroll` rows when taller than the screen; the
+/// caution stays at the bottom, as in the panel.
+pub fn render_all(state: &AppState, frame: &mut Frame, area: Rect, scroll: u16) {
+    let th = &state.theme;
+    let w = 100.min(area.width);
+    let inner_w = w.saturating_sub(2).max(1) as usize;
+    let lines = note_lines(state);
+    let rows: usize = lines
+        .iter()
+        .map(|l| wrapped_rows(&l.to_string(), inner_w))
+        .sum();
+    let caution_rows = wrapped_rows(safety::CAUTION_SCREEN, inner_w);
+    let h = (rows + caution_rows + 4).min(area.height as usize) as u16;
+    let popup = area.centered(Constraint::Length(w), Constraint::Length(h));
+    let block = Block::bordered().title(" Safety notes, all ");
+    let inner = block.inner(popup);
+    let [notes_area, caution_area, hint_area] = Layout::vertical([
+        Constraint::Fill(1),
+        Constraint::Length(caution_rows.min(u16::MAX as usize) as u16),
+        Constraint::Length(1),
+    ])
+    .areas(inner);
+    let max_scroll = rows.saturating_sub(notes_area.height as usize);
+    let scroll = (scroll as usize).min(max_scroll);
+    let hint = if max_scroll > 0 {
+        format!(
+            "rows {}–{} of {rows} · ↑↓ PgUp PgDn scroll · Esc or N closes",
+            scroll + 1,
+            scroll + notes_area.height as usize
+        )
+    } else {
+        "Esc or N closes this list".to_string()
+    };
+    frame.render_widget(Clear, popup);
+    frame.render_widget(block, popup);
     frame.render_widget(
-        Paragraph::new(super::format::clean_lines(lines)).wrap(Wrap { trim: true }),
+        Paragraph::new(lines)
+            .wrap(Wrap { trim: true })
+            .scroll((scroll.min(u16::MAX as usize) as u16, 0)),
         notes_area,
     );
+    frame.render_widget(
+        Paragraph::new(Line::styled(safety::CAUTION_SCREEN, th.dim())).wrap(Wrap { trim: true }),
+        caution_area,
+    );
+    frame.render_widget(Paragraph::new(Line::styled(hint, th.dim())), hint_area);
+}
+
+pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
+    let th = &state.theme;
+    let notes = contextual(state);
+    let title = if notes.is_empty() {
+        " Safety notes ".to_string()
+    } else {
+        format!(" Safety notes ({}, most urgent first) ", notes.len())
+    };
+    let block = Block::bordered().title(title);
+    let inner = block.inner(area);
+    frame.render_widget(block, area);
+    // The caution keeps its rows whatever the height.
+    let caution = caution(inner.width);
+    let caution_rows =
+        wrapped_rows(caution, inner.width.max(1) as usize).min(u16::MAX as usize) as u16;
+    let [notes_area, caution_area] =
+        Layout::vertical([Constraint::Fill(1), Constraint::Length(caution_rows)]).areas(inner);
+    let lines = whole_notes(
+        note_lines(state),
+        notes_area.width as usize,
+        notes_area.height as usize,
+        th.warning(),
+    );
+    frame.render_widget(Paragraph::new(lines).wrap(Wrap { trim: true }), notes_area);
     frame.render_widget(
         Paragraph::new(Line::styled(caution, th.dim())).wrap(Wrap { trim: true }),
         caution_area,
     );
 }
 
+/// The notes that fit whole in `rows` rows of `width` cells, most urgent
+/// first; when some do not, the last row says how many are hidden and how
+/// to list them, so no note is ever cut mid-sentence.
+fn whole_notes(
+    lines: Vec<Line<'_>>,
+    width: usize,
+    rows: usize,
+    more_style: Style,
+) -> Vec<Line<'_>> {
+    let width = width.max(1);
+    let need: Vec<usize> = lines
+        .iter()
+        .map(|l| wrapped_rows(&l.to_string(), width))
+        .collect();
+    if need.iter().sum::<usize>() <= rows {
+        return lines;
+    }
+    let mut used = 0;
+    let mut keep = 0;
+    for n in &need {
+        if used + n + 1 > rows {
+            break;
+        }
+        used += n;
+        keep += 1;
+    }
+    // Hidden contextual notes ("! …") and advice notes ("» …") counted
+    // apart; a hidden status line ("advice: updating…") is neither.
+    let hidden = |prefix: &str| {
+        lines[keep..]
+            .iter()
+            .filter(|l| l.to_string().starts_with(prefix))
+            .count()
+    };
+    let (notes, advice) = (hidden("! "), hidden("» "));
+    let mut out: Vec<Line> = lines.into_iter().take(keep).collect();
+    let what = match (notes, advice) {
+        (0, 0) => "advice status".to_string(),
+        (n, 0) => super::format::count(n, "more note", "more notes"),
+        (0, a) => format!("{a} more advice"),
+        (n, a) => format!("{n} note{}, {a} advice", if n == 1 { "" } else { "s" }),
+    };
+    let mut more = format!("+{what} · N lists all");
+    if more.chars().count() > width {
+        more = format!("+{what} · N: all");
+    }
+    out.push(Line::styled(super::format::fit(&more, width), more_style));
+    out
+}
+
 #[cfg(test)]
 mod tests {
-    use super::wrapped_rows;
+    use super::{whole_notes, wrapped_rows};
+    use ratatui::style::Style;
+    use ratatui::text::Line;
+
+    // Laid out by hand at 40 cells: the first note takes 2 rows, the
+    // others 1; in 3 rows the first stays whole and the last row counts
+    // the hidden note and advice.
+    #[test]
+    fn notes_shown_whole_or_counted() {
+        let first = format!("! {}", ["word"; 12].join(" "));
+        let lines = || {
+            vec![
+                Line::raw(first.clone()),
+                Line::raw("! short"),
+                Line::raw("» advice, info: also short"),
+            ]
+        };
+        let s = |v: Vec<Line>| v.iter().map(|l| l.to_string()).collect::<Vec<_>>();
+        assert_eq!(s(whole_notes(lines(), 40, 4, Style::default())), s(lines()));
+        assert_eq!(
+            s(whole_notes(lines(), 40, 3, Style::default())),
+            [first.clone(), "+1 note, 1 advice · N lists all".to_string()]
+        );
+        assert_eq!(
+            s(whole_notes(lines(), 40, 2, Style::default())),
+            ["+2 notes, 1 advice · N lists all"]
+        );
+    }
 
     // Counted by hand: greedy word wrap as ratatui's `Wrap` lays it out.
     #[test]

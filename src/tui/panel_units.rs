@@ -1,20 +1,22 @@
 //! Unit placement: the proposed moves first (from → to), then every unit by
-//! task, in reserve and out of service. Pinned units carry `*`, units the
-//! proposal would move carry `→`.
+//! task, in reserve and out of service, each on a row of its own as far as
+//! the rows go (the selected task first, then by tier), the rest folded on
+//! packed lines. Pinned units carry `*`, units the proposal would move
+//! carry `→`.
 
 use ratatui::Frame;
 use ratatui::layout::Rect;
 use ratatui::text::{Line, Span};
-use ratatui::widgets::{Block, Paragraph, Wrap};
+use ratatui::widgets::{Block, Paragraph};
 
 use super::app::AppState;
 use super::board::{out_of_service_units, place_name, reserve_units, task_order};
-use super::format::{amount, pad, shown};
+use super::format::{amount, fit, pad, shown};
 use crate::model::UnitIdx;
 
 fn unit_token(state: &AppState, u: UnitIdx) -> String {
     let unit = &state.incident.units[u];
-    let mut s = unit.id.clone();
+    let mut s = shown(&unit.id).into_owned();
     if state.incident.pins.contains_key(&u) {
         s.push('*');
     }
@@ -68,13 +70,29 @@ fn status_word(status: crate::model::UnitStatus) -> &'static str {
     }
 }
 
+/// Column widths of a unit row: id with marks, type, status.
+type Widths = (usize, usize, usize);
+
+fn widths(state: &AppState) -> Widths {
+    let inc = &state.incident;
+    let mut w = (2, 4, 9);
+    for (u, unit) in inc.roster() {
+        w.0 = w.0.max(unit_token(state, u).chars().count());
+        w.1 =
+            w.1.max(shown(&inc.unit_types[unit.type_idx].id).chars().count());
+        w.2 = w.2.max(status_word(unit.status).len());
+    }
+    w
+}
+
 /// One unit on its own row: id with its marks, type, status, rating on
-/// the trait it serves.
-fn unit_row(state: &AppState, u: UnitIdx, widths: (usize, usize, usize)) -> Line<'static> {
+/// the trait it serves, the target of a proposed move. A row wider than
+/// `width` cuts the rating, never the move.
+fn unit_row(state: &AppState, u: UnitIdx, widths: Widths, width: usize) -> Line<'static> {
     let th = &state.theme;
     let inc = &state.incident;
     let unit = &inc.units[u];
-    let ty = &inc.unit_types[unit.type_idx].id;
+    let ty = shown(&inc.unit_types[unit.type_idx].id).into_owned();
     let status = status_word(unit.status);
     let rating = served_trait(state, u)
         .map(|k| {
@@ -82,7 +100,7 @@ fn unit_row(state: &AppState, u: UnitIdx, widths: (usize, usize, usize)) -> Line
             let tr = &inc.traits[k];
             format!(
                 "{} {} ± {} {}",
-                tr.id,
+                shown(&tr.id),
                 amount(r.mean),
                 amount(r.sd),
                 shown(&tr.unit)
@@ -93,92 +111,304 @@ fn unit_row(state: &AppState, u: UnitIdx, widths: (usize, usize, usize)) -> Line
         .proposal
         .as_ref()
         .and_then(|p| p.moves.iter().find(|m| m.unit == u))
-        .map(|m| format!(" → {}", place_name(inc, m.to)))
+        .map(|m| format!(" → {}", shown(&place_name(inc, m.to))))
         .unwrap_or_default();
+    let fixed = 2 + widths.0 + 1 + widths.1 + 1 + widths.2 + 1;
+    let room = width.saturating_sub(fixed + moving.chars().count());
     Line::from(vec![
         Span::raw("  "),
         Span::raw(pad(&unit_token(state, u), widths.0 + 1)),
-        Span::styled(pad(ty, widths.1 + 1), th.dim()),
+        Span::styled(pad(&ty, widths.1 + 1), th.dim()),
         Span::raw(pad(status, widths.2 + 1)),
-        Span::raw(rating),
+        Span::raw(fit(&rating, room)),
         Span::styled(moving, th.accent()),
     ])
 }
 
-/// Every unit on its own row under its task, reserve and out of service:
-/// used when the panel has the rows for it.
-fn detailed(state: &AppState) -> Vec<Line<'static>> {
-    let th = &state.theme;
-    let inc = &state.incident;
-    let roster: Vec<UnitIdx> = inc.roster().map(|(u, _)| u).collect();
-    let id_w = roster
-        .iter()
-        .map(|&u| unit_token(state, u).chars().count())
-        .max()
-        .unwrap_or(2);
-    let ty_w = roster
-        .iter()
-        .map(|&u| inc.unit_types[inc.units[u].type_idx].id.chars().count())
-        .max()
-        .unwrap_or(4);
-    let status_w = roster
-        .iter()
-        .map(|&u| status_word(inc.units[u].status).len())
-        .max()
-        .unwrap_or(9);
-    let mut out = Vec::new();
-    let group = |title: String, units: Vec<UnitIdx>, out: &mut Vec<Line<'static>>| {
-        out.push(Line::styled(
-            format!("{title} ({})", units.len()),
-            th.heading(),
-        ));
-        for u in units {
-            out.push(unit_row(state, u, (id_w, ty_w, status_w)));
+/// `tokens` after `head`, joined by `sep` and packed into rows of `width`
+/// cells (continuation rows indented); at most `max_rows` rows, the last
+/// then ending with "+k more".
+fn pack(
+    head: Span<'static>,
+    tokens: &[String],
+    sep: &str,
+    width: usize,
+    max_rows: usize,
+) -> Vec<Line<'static>> {
+    let width = width.max(8);
+    let max_rows = max_rows.max(1);
+    let sep_w = sep.chars().count();
+    let mut done: Vec<(Vec<&str>, usize)> = Vec::new();
+    let mut cur: Vec<&str> = Vec::new();
+    let mut used = head.content.chars().count();
+    let mut placed = 0;
+    for t in tokens {
+        let n = t.chars().count();
+        let need = if cur.is_empty() {
+            used + n
+        } else {
+            used + sep_w + n
+        };
+        if need > width && !cur.is_empty() {
+            done.push((std::mem::take(&mut cur), used));
+            if done.len() >= max_rows {
+                break;
+            }
+            used = 2 + n;
+        } else {
+            used = need;
         }
-    };
-    for t in task_order(inc) {
-        if inc.tasks[t].is_open() {
-            group(
-                inc.tasks[t].id.clone(),
-                inc.placement.units_on(t).collect(),
-                &mut out,
-            );
+        cur.push(t);
+        placed += 1;
+    }
+    if !cur.is_empty() || done.is_empty() {
+        done.push((cur, used));
+    }
+    let mut more = String::new();
+    if placed < tokens.len() {
+        let mut k = tokens.len() - placed;
+        if let Some((last, used)) = done.last_mut() {
+            // Room for the count at the end of the last row.
+            loop {
+                more = format!("{}+{k} more", if last.is_empty() { "" } else { sep });
+                if *used + more.chars().count() <= width || last.is_empty() {
+                    break;
+                }
+                if let Some(t) = last.pop() {
+                    *used -= t.chars().count() + if last.is_empty() { 0 } else { sep_w };
+                    k += 1;
+                }
+            }
         }
     }
-    group("reserve".into(), reserve_units(inc), &mut out);
-    let oos = out_of_service_units(inc);
-    if !oos.is_empty() {
-        group("out of service".into(), oos, &mut out);
-    }
-    out
+    let rows = done.len();
+    let mut head = Some(head);
+    done.into_iter()
+        .enumerate()
+        .map(|(i, (row, _))| {
+            let mut text = if row.is_empty() && tokens.is_empty() {
+                "—".to_string()
+            } else {
+                row.join(sep)
+            };
+            if i + 1 == rows {
+                text.push_str(&more);
+            }
+            match head.take() {
+                Some(h) => Line::from(vec![h, Span::raw(text)]),
+                None => Line::raw(format!("  {text}")),
+            }
+        })
+        .collect()
 }
 
-/// Rows [`detailed`] takes.
-fn detailed_rows(state: &AppState) -> usize {
+/// A task (or the reserve, or the units out of service) and its units.
+struct Group {
+    title: String,
+    units: Vec<UnitIdx>,
+    tokens: Vec<String>,
+}
+
+/// How a group is shown: its units on one packed line, the first `j` on
+/// rows of their own and the rest packed under its heading, or all on rows.
+#[derive(Clone, Copy, PartialEq)]
+enum Shape {
+    Folded,
+    Partial(usize),
+    Detailed,
+}
+
+fn groups(state: &AppState) -> Vec<Group> {
     let inc = &state.incident;
-    let open = inc.tasks.iter().filter(|t| t.is_open()).count();
-    let oos = usize::from(!out_of_service_units(inc).is_empty());
-    inc.roster_len() + open + 1 + oos
+    let group = |title: String, units: Vec<UnitIdx>| Group {
+        tokens: units.iter().map(|&u| unit_token(state, u)).collect(),
+        title,
+        units,
+    };
+    let mut out: Vec<Group> = task_order(inc)
+        .into_iter()
+        .filter(|&t| inc.tasks[t].is_open())
+        .map(|t| {
+            group(
+                shown(&inc.tasks[t].id).into_owned(),
+                inc.placement.units_on(t).collect(),
+            )
+        })
+        .collect();
+    out.push(group("reserve".into(), reserve_units(inc)));
+    let oos = out_of_service_units(inc);
+    if !oos.is_empty() {
+        out.push(group("out of service".into(), oos));
+    }
+    out
 }
 
 pub fn lines(state: &AppState) -> Vec<Line<'static>> {
-    lines_for(state, usize::MAX)
+    lines_for(state, usize::MAX, usize::MAX)
 }
 
-/// The panel's lines for `rows` rows: each unit on its own row (type,
-/// status, rating on the trait it serves) when they fit, else the units
-/// of each task on one line.
-pub fn lines_for(state: &AppState, rows: usize) -> Vec<Line<'static>> {
-    let mut out = proposal_lines(state);
-    if out.len() + detailed_rows(state) <= rows {
-        out.extend(detailed(state));
-        return out;
+/// The panel's lines for `rows` rows of `width` cells, one row each: the
+/// proposed moves (at most a third of the rows), then every task's units,
+/// the reserve and the units out of service. Each unit gets a row of its
+/// own (type, status, rating on the trait it serves, → target) for as many
+/// groups as fit — the selected task first, then by tier — the others
+/// folded on packed lines; the rows left over detail part of the next
+/// group, so no row stays empty while a unit is folded.
+pub fn lines_for(state: &AppState, rows: usize, width: usize) -> Vec<Line<'static>> {
+    let th = &state.theme;
+    let proposal_cap = if rows == usize::MAX {
+        usize::MAX
+    } else {
+        (rows / 3).max(2)
+    };
+    let mut out = proposal_lines(state, width, proposal_cap);
+    let readings = reading_lines(state, width, proposal_cap);
+    let budget = rows.saturating_sub(out.len() + readings.len());
+    let groups = groups(state);
+    let title_w = groups
+        .iter()
+        .map(|g| g.title.chars().count())
+        .max()
+        .unwrap_or(7)
+        + 1;
+    let folded = |g: &Group| {
+        pack(
+            Span::styled(pad(&g.title, title_w), th.heading()),
+            &g.tokens,
+            " ",
+            width,
+            usize::MAX,
+        )
+    };
+    let partial_head = |g: &Group, j: usize| {
+        pack(
+            Span::styled(
+                format!("{} ({}) · also ", g.title, g.units.len()),
+                th.heading(),
+            ),
+            &g.tokens[j..],
+            " ",
+            width,
+            usize::MAX,
+        )
+    };
+    let folded_rows: Vec<usize> = groups.iter().map(|g| folded(g).len()).collect();
+    let mut shape = vec![Shape::Folded; groups.len()];
+    let mut used: usize = folded_rows.iter().sum();
+    // The selected task first, then the board's order (most urgent tier
+    // first), the reserve, the units out of service.
+    let selected = state.selected_task().and_then(|t| {
+        task_order(&state.incident)
+            .into_iter()
+            .filter(|&o| state.incident.tasks[o].is_open())
+            .position(|o| o == t)
+    });
+    let mut priority: Vec<usize> = selected.into_iter().collect();
+    priority.extend((0..groups.len()).filter(|&g| Some(g) != selected));
+    for &g in &priority {
+        let extra = (1 + groups[g].units.len()).saturating_sub(folded_rows[g]);
+        if !groups[g].units.is_empty() && used + extra <= budget {
+            shape[g] = Shape::Detailed;
+            used += extra;
+        }
     }
-    out.extend(compact(state));
+    // An empty group takes one row either way: headed like the others
+    // when all are detailed, else folded with them ("—").
+    if (0..groups.len()).all(|g| groups[g].units.is_empty() || shape[g] == Shape::Detailed) {
+        shape.fill(Shape::Detailed);
+    }
+    for &g in &priority {
+        if shape[g] != Shape::Folded || used >= budget {
+            continue;
+        }
+        let room = folded_rows[g] + budget - used;
+        let n = groups[g].units.len();
+        if let Some((j, cost)) = (1..n.min(room))
+            .rev()
+            .map(|j| (j, partial_head(&groups[g], j).len() + j))
+            .find(|&(_, cost)| cost <= room)
+        {
+            shape[g] = Shape::Partial(j);
+            used = used + cost - folded_rows[g];
+        }
+    }
+    let widths = widths(state);
+    for (g, group) in groups.iter().enumerate() {
+        match shape[g] {
+            Shape::Folded => out.extend(folded(group)),
+            Shape::Detailed => {
+                out.push(Line::styled(
+                    format!("{} ({})", group.title, group.units.len()),
+                    th.heading(),
+                ));
+                out.extend(
+                    group
+                        .units
+                        .iter()
+                        .map(|&u| unit_row(state, u, widths, width)),
+                );
+            }
+            Shape::Partial(j) => {
+                out.extend(partial_head(group, j));
+                out.extend(
+                    group.units[..j]
+                        .iter()
+                        .map(|&u| unit_row(state, u, widths, width)),
+                );
+            }
+        }
+    }
+    out.extend(readings);
     out
 }
 
-fn proposal_lines(state: &AppState) -> Vec<Line<'static>> {
+/// The ratings field readings moved (`observed` records): one row per unit
+/// read, at most `max_rows` rows with the heading; the rest counted. The
+/// type-mates moved through the shared factor are listed by `odds`.
+fn reading_lines(state: &AppState, width: usize, max_rows: usize) -> Vec<Line<'static>> {
+    let th = &state.theme;
+    let read: Vec<_> = crate::odds::view::ratings_now(&state.incident)
+        .into_iter()
+        .filter(|r| r.readings > 0)
+        .collect();
+    if read.is_empty() || max_rows < 2 {
+        return Vec::new();
+    }
+    let mut out = vec![Line::styled(
+        fit(&format!("Field readings ({})", read.len()), width),
+        th.heading(),
+    )];
+    let room = max_rows - 1;
+    let listed = if read.len() <= room {
+        read.len()
+    } else {
+        room - 1
+    };
+    for r in &read[..listed] {
+        let text = format!(
+            "  {} {}: {}",
+            shown(&r.unit),
+            shown(&r.trait_id),
+            r.describe()
+        );
+        out.push(Line::raw(fit(&text, width)));
+    }
+    if listed < read.len() {
+        out.push(Line::styled(
+            fit(
+                &format!(
+                    "  +{} more (the odds command lists all)",
+                    read.len() - listed
+                ),
+                width,
+            ),
+            th.dim(),
+        ));
+    }
+    out
+}
+
+fn proposal_lines(state: &AppState, width: usize, max_rows: usize) -> Vec<Line<'static>> {
     let th = &state.theme;
     let inc = &state.incident;
     let mut out = Vec::new();
@@ -192,7 +422,7 @@ fn proposal_lines(state: &AppState) -> Vec<Line<'static>> {
             (_, None) => " · read-only".to_string(),
         };
         out.push(Line::styled(
-            format!("Proposed moves ({}){keys}", p.moves.len()),
+            fit(&format!("Proposed moves ({}){keys}", p.moves.len()), width),
             th.accent(),
         ));
         let moves: Vec<String> = p
@@ -201,92 +431,21 @@ fn proposal_lines(state: &AppState) -> Vec<Line<'static>> {
             .map(|m| {
                 format!(
                     "{} {} → {}",
-                    inc.units[m.unit].id,
-                    place_name(inc, m.from),
-                    place_name(inc, m.to)
+                    shown(&inc.units[m.unit].id),
+                    shown(&place_name(inc, m.from)),
+                    shown(&place_name(inc, m.to))
                 )
             })
             .collect();
-        out.push(Line::raw(format!("  {}", moves.join(" · "))));
+        out.extend(pack(
+            Span::raw("  "),
+            &moves,
+            " · ",
+            width,
+            max_rows.saturating_sub(1),
+        ));
     } else if state.mode == super::app::Mode::Command {
         out.push(Line::styled("No moves proposed.", th.dim()));
-    }
-    out
-}
-
-/// The units of each task on one line (a small panel).
-fn compact(state: &AppState) -> Vec<Line<'static>> {
-    let th = &state.theme;
-    let inc = &state.incident;
-    let mut out = Vec::new();
-    let id_w = inc
-        .tasks
-        .iter()
-        .map(|t| t.id.chars().count())
-        .max()
-        .unwrap_or(4)
-        .max(6)
-        + 1;
-    for t in task_order(inc) {
-        let task = &inc.tasks[t];
-        if !task.is_open() {
-            continue;
-        }
-        let units: Vec<String> = inc
-            .placement
-            .units_on(t)
-            .map(|u| unit_token(state, u))
-            .collect();
-        let body = if units.is_empty() {
-            "—".to_string()
-        } else {
-            units.join(" ")
-        };
-        out.push(Line::from(vec![
-            Span::styled(pad(&task.id, id_w), th.heading()),
-            Span::raw(body),
-        ]));
-    }
-    let reserve: Vec<String> = reserve_units(inc)
-        .into_iter()
-        .map(|u| unit_token(state, u))
-        .collect();
-    out.push(Line::from(vec![
-        Span::styled("reserve ", th.heading()),
-        Span::raw(if reserve.is_empty() {
-            "—".to_string()
-        } else {
-            reserve.join(" ")
-        }),
-    ]));
-    let oos: Vec<String> = out_of_service_units(inc)
-        .into_iter()
-        .map(|u| inc.units[u].id.clone())
-        .collect();
-    out.push(Line::from(vec![
-        Span::styled("out of service ", th.heading()),
-        Span::raw(if oos.is_empty() {
-            "—".to_string()
-        } else {
-            oos.join(" ")
-        }),
-    ]));
-    // Ratings moved by field readings: the units read (type-mates moved
-    // through the shared factor are in `odds`).
-    let read: Vec<_> = crate::odds::view::ratings_now(inc)
-        .into_iter()
-        .filter(|r| r.readings > 0)
-        .collect();
-    if !read.is_empty() {
-        out.push(Line::styled("Field readings", th.heading()));
-        for r in read {
-            out.push(Line::raw(format!(
-                "  {} {}: {}",
-                r.unit,
-                r.trait_id,
-                r.describe()
-            )));
-        }
     }
     out
 }
@@ -294,14 +453,43 @@ fn compact(state: &AppState) -> Vec<Line<'static>> {
 pub fn render(state: &AppState, frame: &mut Frame, area: Rect) {
     let n = state.incident.roster_len();
     let block = Block::bordered().title(format!(" Units ({n}) · * pinned · → moves "));
+    let width = area.width.saturating_sub(2) as usize;
+    // Scrolled (PgDn), the list is the whole one, every unit on its row.
+    let rows = if state.roster_scroll > 0 {
+        usize::MAX
+    } else {
+        area.height.saturating_sub(2) as usize
+    };
     frame.render_widget(
-        Paragraph::new(super::format::clean_lines(lines_for(
-            state,
-            area.height.saturating_sub(2) as usize,
-        )))
-        .block(block)
-        .wrap(Wrap { trim: false })
-        .scroll((state.roster_scroll, 0)),
+        Paragraph::new(super::format::clean_lines(lines_for(state, rows, width)))
+            .block(block)
+            .scroll((state.roster_scroll, 0)),
         area,
     );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::pack;
+    use ratatui::text::Span;
+
+    fn rows(tokens: &[&str], width: usize, max_rows: usize) -> Vec<String> {
+        let tokens: Vec<String> = tokens.iter().map(|t| t.to_string()).collect();
+        pack(Span::raw("head "), &tokens, " ", width, max_rows)
+            .iter()
+            .map(|l| l.to_string())
+            .collect()
+    }
+
+    // Laid out by hand: rows of at most 12 cells, continuations indented.
+    #[test]
+    fn packs_tokens_into_rows() {
+        assert_eq!(rows(&["aa", "bb", "cc"], 12, 9), ["head aa bb", "  cc"]);
+        assert_eq!(rows(&[], 12, 9), ["head —"]);
+        // Two rows at most: the last ends with the count of the rest.
+        assert_eq!(
+            rows(&["aa", "bb", "cc", "dd", "ee", "ff", "gg"], 12, 2),
+            ["head aa bb", "  cc +4 more"]
+        );
+    }
 }

@@ -60,14 +60,17 @@ pub fn render(state: &AppState, frame: &mut Frame) {
     let (picture_h, log_min) = match body.height {
         0..36 if state.replay.is_some() => (8, 8),
         _ if state.replay.is_some() && body.height < 45 => (11, 12),
-        0..36 => (8, 4),
-        36..50 => (14, 6),
-        _ => (20, 8),
+        // The log keeps three rows inside its border: life-safety notes
+        // outrank log history.
+        0..36 => (8, 5),
+        36..50 => (14, 5),
+        _ => (20, 5),
     };
     // The notes take the rows their text needs (up to what leaves the log
     // its minimum), the log the rest.
     let notes_room = body.height.saturating_sub(picture_h + log_min);
-    let notes_h = panel_notes::rows_wanted(state, right.width).clamp(6.min(notes_room), notes_room);
+    let notes_h = panel_notes::rows_within(state, right.width, notes_room)
+        .clamp(6.min(notes_room), notes_room);
     let [picture, notes, log] = Layout::vertical([
         Constraint::Length(picture_h),
         Constraint::Length(notes_h),
@@ -84,6 +87,7 @@ pub fn render(state: &AppState, frame: &mut Frame) {
 
     match &state.overlay {
         Overlay::Help => panel_help::render(state, frame, area),
+        Overlay::Notes(scroll) => panel_notes::render_all(state, frame, area, *scroll),
         Overlay::Form(form) => super::form::render(form, &state.theme, frame, area),
         Overlay::None => {}
     }
