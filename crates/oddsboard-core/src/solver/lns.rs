@@ -202,8 +202,11 @@ fn run_worker(
     for _ in 0..steps {
         let mut s = cur.clone();
         release(ctx, &mut s, &mut rng);
+        // Any part cut by the budget makes the step (and the epoch)
+        // depend on the clock: drop it.
         if !refill(ctx, &mut s, &mut rng, &mut iterations, budget)
             || !descend(ctx, &mut s, &mut iterations, budget)
+            || budget.exhausted()
         {
             return None;
         }
@@ -369,7 +372,7 @@ fn descend(ctx: &Ctx, s: &mut State, iterations: &mut u64, budget: &Budget) -> b
                 if budget.exhausted() {
                     return false;
                 }
-                if !ejection_chain(ctx, s, iterations, &before) {
+                if !ejection_chain(ctx, s, iterations, &before, budget) {
                     return true;
                 }
             }
@@ -383,7 +386,13 @@ fn descend(ctx: &Ctx, s: &mut State, iterations: &mut u64, budget: &Budget) -> b
 /// for it. The heads u are the few units that lift f most; for each, every
 /// v is scored from A's and B's tallies. Applies the best chain if it makes
 /// the key better; returns whether it did.
-fn ejection_chain(ctx: &Ctx, s: &mut State, iterations: &mut u64, before: &ObjectiveKey) -> bool {
+fn ejection_chain(
+    ctx: &Ctx,
+    s: &mut State,
+    iterations: &mut u64,
+    before: &ObjectiveKey,
+    budget: &Budget,
+) -> bool {
     let inc = ctx.inc;
     // Held keys are not separable; chains are scored by compare_change.
     if !ctx.floors.is_empty() || ctx.focus {
@@ -415,6 +424,9 @@ fn ejection_chain(ctx: &Ctx, s: &mut State, iterations: &mut u64, before: &Objec
     let mut best: Option<(ObjectiveKey, UnitIdx, UnitIdx)> = None;
     let mut seen = vec![false; ctx.n_groups];
     for &(_, u) in &heads {
+        if budget.exhausted() {
+            return false;
+        }
         let Some(a) = s.place[u] else { continue };
         let (f0, a0) = (s.ln[f], s.ln[a]);
         s.apply_move(inc, u, Some(f));

@@ -17,7 +17,9 @@
 //!    are filled greedily (the worst task takes its best reserve unit) and the
 //!    best is kept: a first plan in milliseconds;
 //! 2. local search around the bottleneck task (move in, move out, swap; every
-//!    move scored from the two tallies it touches) with seeded perturbation;
+//!    move scored from the two tallies it touches): with seeded
+//!    perturbation before an exact search, otherwise one descent and then
+//!    the large-neighbourhood search ([`lns`]) on `threads` workers;
 //! 3. on small incidents (at most [`SolveOptions::exact_max_units`] movable
 //!    units) branch and bound over the units proves the best key
 //!    ([`exact`]);
@@ -416,6 +418,7 @@ pub fn solve(
             node_limit: options.exact_node_limit,
             stale_rounds: options.stale_rounds,
             from_scratch: options.from_scratch,
+            threads: options.threads.max(1),
         },
         &budget,
     );

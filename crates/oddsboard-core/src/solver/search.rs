@@ -674,6 +674,15 @@ pub fn local_search(
         // Descend to a local optimum.
         loop {
             if budget.exhausted() {
+                // Keep the descent's progress: every step it took made the
+                // key better, so a descent cut short still beats its start.
+                let cut = State::new(ctx, &state.placement());
+                let key = cut.key(ctx);
+                if key.better_than(&best_key) {
+                    best = cut;
+                    best_key = key;
+                    on_improve(&best, &best_key, iterations);
+                }
                 return SearchOutcome {
                     best,
                     best_key,
