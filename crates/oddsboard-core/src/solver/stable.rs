@@ -228,7 +228,7 @@ pub fn stable_plan(
         ok = meets(ctx, &from_ground, thr);
     }
     let mut best = from_leader;
-    let mut candidates = vec![walk_toward(ctx, ground, leader, thr)];
+    let mut candidates = vec![walk_toward(ctx, ground, leader, thr, budget)];
     if ok {
         candidates.push(Some(from_ground));
     }
@@ -245,11 +245,23 @@ pub fn stable_plan(
 /// From the ground, the leader's placements one unit at a time, each time
 /// the one that most raises the key with every entry held at its
 /// threshold, until the plan is acceptable (at worst the leader itself).
-fn walk_toward(ctx: &Ctx, ground: &Placement, leader: &State, thr: &[f64]) -> Option<State> {
+fn walk_toward(
+    ctx: &Ctx,
+    ground: &Placement,
+    leader: &State,
+    thr: &[f64],
+    budget: &Budget,
+) -> Option<State> {
     let inc = ctx.inc;
     let held = ctx.with_floors(thr);
     let mut s = State::new(ctx, &ctx.repair(ground));
     for _ in 0..=ctx.movable.len() {
+        // Units × units full keys: on large incidents this walk alone can
+        // outlast any budget; it is one candidate among others, so it is
+        // given up when the budget ends.
+        if budget.exhausted() {
+            return None;
+        }
         if meets(ctx, &s, thr) {
             return Some(s);
         }
