@@ -124,6 +124,168 @@ fn figures() {
     if section("baselines") {
         baselines_side_by_side();
     }
+    if section("search") {
+        search_after_budget();
+    }
+    if section("speedup") {
+        speedup();
+    }
+    if section("cancel") {
+        cancel_latency();
+    }
+}
+
+/// How long a solve takes to return after its cancel flag is raised, two
+/// threads, from scratch, flag raised 50–500 ms in (by a timer thread).
+fn cancel_latency() {
+    println!("== cancel latency, two threads (from scratch) ==");
+    for (name, inc) in search_incidents() {
+        let mut lat = Vec::new();
+        for (i, delay_ms) in [50u64, 120, 200, 350, 500].into_iter().enumerate() {
+            let cancel = std::sync::Arc::new(AtomicBool::new(false));
+            let flag = cancel.clone();
+            let raised = std::sync::Arc::new(std::sync::Mutex::new(None::<Instant>));
+            let at = raised.clone();
+            let timer = std::thread::spawn(move || {
+                std::thread::sleep(Duration::from_millis(delay_ms));
+                if let Ok(mut g) = at.lock() {
+                    *g = Some(Instant::now());
+                }
+                flag.store(true, std::sync::atomic::Ordering::Relaxed);
+            });
+            let opts = SolveOptions {
+                threads: 2,
+                seed: i as u64,
+                stale_rounds: u64::MAX,
+                ..scratch(Duration::from_secs(600))
+            };
+            let r = match solve(&inc, &opts, &cancel, &mut |_| {}) {
+                Ok(r) => r,
+                Err(e) => panic!("infeasible: {e}"),
+            };
+            let end = Instant::now();
+            let _ = timer.join();
+            let t0 = raised.lock().ok().and_then(|g| *g);
+            if let Some(t0) = t0 {
+                lat.push(end.duration_since(t0).as_secs_f64() * 1e3);
+            }
+            println!("  {name} cancel at {delay_ms} ms: stop {}", r.stop.as_str());
+        }
+        lat.sort_by(f64::total_cmp);
+        println!("  {name}: latency ms (sorted) {lat:.2?}");
+    }
+}
+
+/// The benchmark incidents of issue 11 (seeded generator, seed 1; invented).
+fn search_incidents() -> Vec<(&'static str, Incident)> {
+    let only = std::env::var("ODDSBOARD_INCIDENT").unwrap_or_default();
+    [
+        ("600x40x5", (600, 40, 5)),
+        ("300x40x5", (300, 40, 5)),
+        ("2000x100x6", (2000, 100, 6)),
+        ("60x12x3", (60, 12, 3)),
+    ]
+    .into_iter()
+    .filter(|(n, _)| only.is_empty() || only.split(',').any(|o| o == *n))
+    .map(|(n, (u, t, k))| (n, incident(u, t, k, 1)))
+    .collect()
+}
+
+/// A solve from scratch that also returns the search's own best key (the
+/// last improving progress report, before the rule) and the time each
+/// improving report arrived.
+fn run_search(inc: &Incident, opts: &SolveOptions) -> (SolveReport, Vec<(f64, ObjectiveKey)>) {
+    let mut trace = Vec::new();
+    let r = match solve(inc, opts, &AtomicBool::new(false), &mut |p| {
+        if p.improved {
+            trace.push((p.elapsed.as_secs_f64(), p.key.clone()));
+        }
+    }) {
+        Ok(r) => r,
+        Err(e) => panic!("infeasible: {e}"),
+    };
+    (r, trace)
+}
+
+/// Search key (before the rule) and the recommended plan after each budget,
+/// one and two threads. `ODDSBOARD_BUDGETS=100,2000` picks the budgets (ms).
+fn search_after_budget() {
+    let budgets: Vec<u64> = std::env::var("ODDSBOARD_BUDGETS")
+        .unwrap_or_else(|_| "100,500,2000,10000".into())
+        .split(',')
+        .filter_map(|x| x.parse().ok())
+        .collect();
+    println!("== search key after a budget (from scratch, seed 1) ==");
+    for (name, inc) in search_incidents() {
+        for &ms in &budgets {
+            for threads in [1usize, 2] {
+                let opts = SolveOptions {
+                    threads,
+                    seed: 1,
+                    ..scratch(Duration::from_millis(ms))
+                };
+                let (r, trace) = run_search(&inc, &opts);
+                let search = trace.last().map_or("-".into(), |(_, k)| fmt_key(k));
+                println!(
+                    "  {name} {ms:>5} ms t{threads}: search {search} | plan {} (stop {}, {:.0} ms, {} it)",
+                    fmt_key(&r.key),
+                    r.stop.as_str(),
+                    r.elapsed.as_secs_f64() * 1e3,
+                    r.iterations
+                );
+            }
+        }
+    }
+}
+
+/// Time for the search to reach a fixed key: the key one thread reaches
+/// with `ODDSBOARD_TARGET_MS` (default 2000) of budget, seed 1; then each
+/// thread count's first improving report at least as good, over seeds 1–5.
+fn speedup() {
+    let target_ms: u64 = std::env::var("ODDSBOARD_TARGET_MS")
+        .ok()
+        .and_then(|x| x.parse().ok())
+        .unwrap_or(2000);
+    println!("== time to a fixed key, one vs two threads (from scratch) ==");
+    for (name, inc) in search_incidents() {
+        for seed in 1..=5u64 {
+            let base = SolveOptions {
+                seed,
+                ..scratch(Duration::from_millis(target_ms))
+            };
+            let (_, t1) = run_search(
+                &inc,
+                &SolveOptions {
+                    threads: 1,
+                    ..base.clone()
+                },
+            );
+            let Some((_, target)) = t1.last().cloned() else {
+                continue;
+            };
+            let reach = |trace: &[(f64, ObjectiveKey)]| {
+                trace
+                    .iter()
+                    .find(|(_, k)| k.compare(&target) != std::cmp::Ordering::Less)
+                    .map(|(t, _)| *t)
+            };
+            let (_, t2) = run_search(
+                &inc,
+                &SolveOptions {
+                    threads: 2,
+                    budget: Duration::from_millis(2 * target_ms),
+                    ..base.clone()
+                },
+            );
+            let (a, b) = (reach(&t1), reach(&t2));
+            println!(
+                "  {name} seed {seed}: target {} | 1 thread {:?} s, 2 threads {:?} s",
+                fmt_key(&target),
+                a,
+                b
+            );
+        }
+    }
 }
 
 /// The exact re-plan (the rule, from the ground) on the bundled samples.

@@ -11,7 +11,7 @@ use crate::model::{Incident, Placement, Tier};
 use crate::odds::joint::{
     JointByTier, JointDetailView, JointOddsView, JointOptions, joint_by_tier,
 };
-use crate::odds::text::{pct, pct_detail};
+use crate::odds::text::{pct, pct_detail, pct_or_dash};
 use crate::odds::view::{TaskView, placement_view, task_views, worst_by_tier};
 use crate::safety;
 use crate::solver::relax::{RelaxOptions, TierBounds, tier_bounds};
@@ -36,6 +36,11 @@ pub struct Args {
     /// Seed of the solver's random choices (same seed, same plan).
     #[arg(long, default_value_t = 0)]
     pub seed: u64,
+    /// Search threads (default: the cores available). The plan depends on
+    /// the seed and on this number, not on the machine's speed, when the
+    /// search ends before its budget.
+    #[arg(long, value_parser = clap::value_parser!(u16).range(1..=256))]
+    pub threads: Option<u16>,
     /// Slack of the rule: no task's odds (capped at its tier's secure level)
     /// are given up by more than this share of the best they can reach;
     /// among such plans the least disruption wins (0.01 = 1 %; 0 = plain
@@ -507,6 +512,30 @@ fn bound_lines(bounds: &TierBounds) -> String {
     out
 }
 
+/// The one-line progress of a long plan: the worst odds of the first tier
+/// below its secure level (else of all tasks) and the work done.
+fn progress_words(incident: &Incident, p: &crate::solver::Progress) -> String {
+    let secure = p.key.worst_capped_ln_per_tier();
+    let worst = p.key.worst_odds_per_tier();
+    let caps = crate::solver::key::ln_caps(incident);
+    let short = Tier::ALL.iter().find(|t| {
+        let i = t.index();
+        secure[i].is_some_and(|v| !crate::solver::key::reaches(v, caps[i]))
+    });
+    let head = match short {
+        Some(t) => format!("worst {} {}", t.as_str(), pct_or_dash(worst[t.index()])),
+        None => format!("every tier secure, worst {}", pct(p.key.min_odds())),
+    };
+    let bound = p
+        .upper_bound
+        .map_or_else(String::new, |b| format!(", at most {} possible", pct(b)));
+    format!(
+        "{head}{bound}; {} moves scored, {:.1} s",
+        p.iterations,
+        p.elapsed.as_secs_f64()
+    )
+}
+
 fn check_args(args: &Args) -> anyhow::Result<()> {
     if !(0.0..1.0).contains(&args.slack) || args.slack.is_nan() {
         anyhow::bail!("--slack: must be in [0, 1), got {}", args.slack);
@@ -532,14 +561,19 @@ pub fn run(args: Args) -> CliResult {
         seed: args.seed,
         slack: args.slack,
         from_scratch: args.from_scratch,
+        threads: args
+            .threads
+            .map_or_else(crate::solver::available_threads, usize::from),
         ..SolveOptions::default()
     };
     let cancel = AtomicBool::new(false);
-    let work = (args.budget_ms > 1000).then(|| {
-        let what = format!("planning (budget {:.1} s)", args.budget_ms as f64 / 1e3);
-        super::progress::Work::spinner(&what, args.json)
+    let what = format!("planning (budget {:.1} s)", args.budget_ms as f64 / 1e3);
+    let work = (args.budget_ms > 1000).then(|| super::progress::Work::spinner(&what, args.json));
+    let report = solve(&incident, &options, &cancel, &mut |p| {
+        if let Some(w) = &work {
+            w.set_message(&format!("{what}: {}", progress_words(&incident, p)));
+        }
     });
-    let report = solve(&incident, &options, &cancel, &mut |_| {});
     drop(work);
     let report = report.map_err(|e| anyhow::anyhow!("{}: {e}", args.file.display()))?;
     let bounds = tier_bounds(

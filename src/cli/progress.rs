@@ -62,6 +62,11 @@ impl Work {
         Work::new(what, 0, json)
     }
 
+    /// Replaces the text beside the spinner (e.g. the best so far).
+    pub fn set_message(&self, msg: &str) {
+        self.bar.set_message(msg.to_string());
+    }
+
     pub fn inc(&self, n: u64) {
         self.bar.inc(n);
     }

@@ -34,11 +34,13 @@ pub struct SolverPlanner {
 }
 
 impl SolverPlanner {
-    /// Default solver options with this budget.
+    /// Default solver options with this budget, searching on every core
+    /// available (the cancel flag still stops every worker at once).
     pub fn with_budget(budget: Duration) -> Self {
         SolverPlanner {
             options: crate::solver::SolveOptions {
                 budget,
+                threads: crate::solver::available_threads(),
                 ..Default::default()
             },
         }
@@ -52,8 +54,13 @@ impl Planner for SolverPlanner {
         cancel: &AtomicBool,
         progress: &mut dyn FnMut(&Placement, Duration, u64),
     ) -> Result<PlanResult, String> {
-        let mut on_progress =
-            |p: &crate::solver::Progress| progress(p.placement, p.elapsed, p.iterations);
+        // Only better placements: epoch-end reports without one would
+        // resend the same placement.
+        let mut on_progress = |p: &crate::solver::Progress| {
+            if p.improved {
+                progress(p.placement, p.elapsed, p.iterations);
+            }
+        };
         let report = crate::solver::solve(incident, &self.options, cancel, &mut on_progress)
             .map_err(|e| e.to_string())?;
         // The gap of the first short tier, after the plan is settled and

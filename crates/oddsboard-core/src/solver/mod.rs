@@ -17,7 +17,9 @@
 //!    are filled greedily (the worst task takes its best reserve unit) and the
 //!    best is kept: a first plan in milliseconds;
 //! 2. local search around the bottleneck task (move in, move out, swap; every
-//!    move scored from the two tallies it touches) with seeded perturbation;
+//!    move scored from the two tallies it touches): with seeded
+//!    perturbation before an exact search, otherwise one descent and then
+//!    the large-neighbourhood search ([`lns`]) on `threads` workers;
 //! 3. on small incidents (at most [`SolveOptions::exact_max_units`] movable
 //!    units) branch and bound over the units proves the best key
 //!    ([`exact`]);
@@ -42,6 +44,7 @@ pub mod baselines;
 pub mod bound;
 pub mod exact;
 pub mod key;
+pub mod lns;
 pub mod relax;
 pub mod search;
 pub mod stable;
@@ -76,9 +79,24 @@ pub struct SolveOptions {
     /// Stop the exact search after this many nodes. Default `u64::MAX`
     /// (budget only).
     pub exact_node_limit: u64,
-    /// Stop the anytime search after this many perturbations in a row that
-    /// found nothing better. Default 400.
+    /// Stop the anytime search after this many perturbations (small
+    /// incidents) or LNS steps per worker (large ones, see [`lns`]) in a
+    /// row that found nothing better. Default 400.
     pub stale_rounds: u64,
+    /// Workers of the large-neighbourhood search. The plan depends on the
+    /// seed and on this number (not on the machine). Default 1; front ends
+    /// pass the available cores.
+    pub threads: usize,
+    /// Stop the large-neighbourhood search after this many epochs: a work
+    /// budget independent of the clock, for reproducible runs. Default
+    /// `u64::MAX` (the budget and `stale_rounds` decide).
+    pub max_epochs: u64,
+}
+
+/// The cores this machine offers (at least 1): the front ends' default for
+/// [`SolveOptions::threads`].
+pub fn available_threads() -> usize {
+    std::thread::available_parallelism().map_or(1, std::num::NonZeroUsize::get)
 }
 
 impl Default for SolveOptions {
@@ -92,6 +110,8 @@ impl Default for SolveOptions {
             exact_max_units: 40,
             exact_node_limit: u64::MAX,
             stale_rounds: 400,
+            threads: 1,
+            max_epochs: u64::MAX,
         }
     }
 }
@@ -144,7 +164,7 @@ pub struct SolveReport {
     /// acceptable plan has less disruption (from scratch: a better key).
     pub proven_optimal: bool,
     /// An upper bound on the worst odds (over all open tasks) any feasible
-    /// plan can reach.
+    /// plan can reach; `None` when the solve was cancelled.
     pub upper_bound: Option<f64>,
     /// Candidate moves scored plus exact-search nodes.
     pub iterations: u64,
@@ -152,12 +172,23 @@ pub struct SolveReport {
     pub stop: StopReason,
 }
 
-/// Reported whenever the best plan found so far improves.
+/// Reported whenever the best plan found so far improves, and at the end
+/// of every epoch of the large-neighbourhood search (`improved` false when
+/// the best plan did not change), so a front end can show the work going on.
 pub struct Progress<'a> {
+    /// The best plan found so far.
     pub placement: &'a Placement,
+    /// Its key (the best key so far).
     pub key: &'a ObjectiveKey,
     pub elapsed: Duration,
+    /// Candidate moves scored plus exact-search nodes so far.
     pub iterations: u64,
+    /// An upper bound on the worst odds known while searching; `None` until
+    /// a bound is computed during the search (the final one is in
+    /// [`SolveReport::upper_bound`]).
+    pub upper_bound: Option<f64>,
+    /// The best plan changed since the last report.
+    pub improved: bool,
 }
 
 /// An incident whose constraints cannot all be met.
@@ -263,12 +294,14 @@ pub fn solve(
     let exact = ctx.movable.len() <= options.exact_max_units;
 
     let mut iterations = 0u64;
-    let mut report_best = |s: &State, key: &ObjectiveKey, iterations: u64| {
+    let mut report = |s: &State, key: &ObjectiveKey, iterations: u64, improved: bool| {
         on_progress(&Progress {
             placement: &s.placement(),
             key,
             elapsed: budget.elapsed(),
             iterations,
+            upper_bound: None,
+            improved,
         });
     };
 
@@ -285,7 +318,7 @@ pub fn solve(
     let mut best: Option<(State, ObjectiveKey)> = None;
     for p in &starts {
         let mut s = State::new(&ctx, &ctx.repair(p));
-        greedy_fill(&ctx, &mut s);
+        greedy_fill(&ctx, &mut s, Some(&budget));
         let k = s.key(&ctx);
         if best.as_ref().is_none_or(|(_, bk)| k.better_than(bk)) {
             best = Some((s, k));
@@ -294,10 +327,11 @@ pub fn solve(
     let Some((first, first_key)) = best else {
         unreachable!("at least one start plan");
     };
-    report_best(&first, &first_key, 0);
+    report(&first, &first_key, 0, true);
 
     // 2. Local search. Before an exact search it runs a fixed number of
-    // rounds (no clock); otherwise until its share of the budget ends.
+    // rounds (no clock); otherwise one descent, then the large-neighbourhood
+    // search until its share of the budget ends or it stops finding better.
     let limits = if exact {
         SearchLimits {
             stale_rounds: 10,
@@ -305,8 +339,8 @@ pub fn solve(
         }
     } else {
         SearchLimits {
-            stale_rounds: options.stale_rounds,
-            max_rounds: u64::MAX,
+            stale_rounds: 1,
+            max_rounds: 1,
         }
     };
     let key_budget = if !exact {
@@ -320,12 +354,32 @@ pub fn solve(
         options.seed,
         &limits,
         &key_budget,
-        &mut |s, k, it| report_best(s, k, it),
+        &mut |s, k, it| report(s, k, it, true),
     );
     iterations += outcome.iterations;
     let mut stopped_by_budget = outcome.stopped_by_budget;
     let mut best_state = outcome.best;
-    let best_key = outcome.best_key;
+    let mut best_key = outcome.best_key;
+    if !exact && !stopped_by_budget {
+        let base = iterations;
+        let out = lns::lns(
+            &ctx,
+            best_state,
+            options.seed,
+            &lns::LnsLimits {
+                threads: options.threads.max(1),
+                // In LNS steps per worker: epochs after the first few do 16.
+                stale_epochs: options.stale_rounds.div_ceil(16).max(2),
+                max_epochs: options.max_epochs,
+            },
+            &key_budget,
+            &mut |s, k, it, improved| report(s, k, base + it, improved),
+        );
+        iterations += out.iterations;
+        stopped_by_budget |= out.stopped_by_budget;
+        best_state = out.best;
+        best_key = out.best_key;
+    }
 
     // 3. Exact search.
     let mut key_proven = false;
@@ -342,7 +396,7 @@ pub fn solve(
             }),
             &budget,
             options.exact_node_limit,
-            &mut |s, k| report_best(s, k, iterations),
+            &mut |s, k| report(s, k, iterations, true),
         );
         iterations += out.nodes;
         key_proven = out.complete;
@@ -365,6 +419,7 @@ pub fn solve(
             node_limit: options.exact_node_limit,
             stale_rounds: options.stale_rounds,
             from_scratch: options.from_scratch,
+            threads: options.threads.max(1),
         },
         &budget,
     );
@@ -391,7 +446,9 @@ pub fn solve(
         placement,
         key,
         proven_optimal: proven,
-        upper_bound: Some(exact::worst_odds_upper_bound(&ctx)),
+        // Skipped on cancel: linear in units × tasks, it would delay the
+        // return the caller is waiting for (tens of ms at 2000 × 100).
+        upper_bound: (!budget.cancelled()).then(|| exact::worst_odds_upper_bound(&ctx)),
         iterations,
         elapsed: budget.elapsed(),
         stop,

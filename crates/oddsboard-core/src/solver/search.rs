@@ -198,7 +198,7 @@ impl<'a> Ctx<'a> {
 
 /// ln odds of a task ignoring `min_units` and the no-unit rule: lets the
 /// greedy fill a task that needs several units before it counts.
-fn ln_odds_ignoring_minimum(tally: &TaskTally, inc: &Incident, t: TaskIdx) -> f64 {
+pub(crate) fn ln_odds_ignoring_minimum(tally: &TaskTally, inc: &Incident, t: TaskIdx) -> f64 {
     inc.tasks[t]
         .needs
         .iter()
@@ -393,18 +393,22 @@ pub struct SearchOutcome {
 }
 
 /// Fills the plan greedily: repeatedly give the worst task that can be
-/// helped the reserve unit that raises its odds most.
-pub fn greedy_fill(ctx: &Ctx, state: &mut State) {
+/// helped the reserve unit that raises its odds most. Stops early (with a
+/// feasible plan) when `budget` ends.
+pub fn greedy_fill(ctx: &Ctx, state: &mut State, budget: Option<&Budget>) {
     let inc = ctx.inc;
     let mut seen = vec![false; ctx.n_groups];
+    // A task no reserve unit improves stays so for the rest of the fill:
+    // the reserve only shrinks and the task's tally does not change.
+    let mut dead = vec![false; inc.tasks.len()];
     loop {
-        if !ctx.may_draw_reserve(state.reserve) {
+        if !ctx.may_draw_reserve(state.reserve) || budget.is_some_and(Budget::exhausted) {
             return;
         }
         let order = state.bottlenecks(ctx);
         let mut done = false;
         for &t in &order {
-            if ctx.is_full(t, state.tallies[t].count()) {
+            if dead[t] || ctx.is_full(t, state.tallies[t].count()) {
                 continue;
             }
             let below_min = state.ln[t] == f64::NEG_INFINITY;
@@ -437,6 +441,7 @@ pub fn greedy_fill(ctx: &Ctx, state: &mut State) {
                 done = true;
                 break;
             }
+            dead[t] = true;
         }
         if !done {
             return;
@@ -446,6 +451,21 @@ pub fn greedy_fill(ctx: &Ctx, state: &mut State) {
 
 /// The best improving step around the bottleneck tasks, if any.
 pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<Step> {
+    best_step_within(ctx, state, iterations, usize::MAX, true, None)
+}
+
+/// [`best_step`] around the first `max_tasks` bottlenecks only, with or
+/// without swaps (the costly part: units on f × all units), giving up
+/// (`None`) as soon as `budget` ends: proving a local optimum scans every
+/// task, which on large incidents takes longer than a cancel may wait.
+pub fn best_step_within(
+    ctx: &Ctx,
+    state: &mut State,
+    iterations: &mut u64,
+    max_tasks: usize,
+    swaps: bool,
+    budget: Option<&Budget>,
+) -> Option<Step> {
     let inc = ctx.inc;
     let mut seen = vec![false; ctx.n_groups];
     let order = state.bottlenecks(ctx);
@@ -459,7 +479,10 @@ pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<S
         changes: [zero; 2],
         n: 0,
     };
-    for &f in &order {
+    for &f in order.iter().take(max_tasks) {
+        if budget.is_some_and(Budget::exhausted) {
+            return None;
+        }
         let mut best = current;
         let consider = |state: &State, s: Scored, best: &mut Scored| {
             if cmp_candidates(ctx, state, &s, best) == Ordering::Greater {
@@ -539,7 +562,10 @@ pub fn best_step(ctx: &Ctx, state: &mut State, iterations: &mut u64) -> Option<S
             }
         }
         // Swaps of a unit on f with one elsewhere (reserve or a task).
-        for &u in &on_f {
+        for &u in on_f.iter().filter(|_| swaps) {
+            if budget.is_some_and(Budget::exhausted) {
+                return None;
+            }
             seen.iter_mut().for_each(|x| *x = false);
             for &v in &ctx.movable {
                 let b = state.place[v];
@@ -649,6 +675,15 @@ pub fn local_search(
         // Descend to a local optimum.
         loop {
             if budget.exhausted() {
+                // Keep the descent's progress: every step it took made the
+                // key better, so a descent cut short still beats its start.
+                let cut = State::new(ctx, &state.placement());
+                let key = cut.key(ctx);
+                if key.better_than(&best_key) {
+                    best = cut;
+                    best_key = key;
+                    on_improve(&best, &best_key, iterations);
+                }
                 return SearchOutcome {
                     best,
                     best_key,
@@ -656,7 +691,17 @@ pub fn local_search(
                     stopped_by_budget: true,
                 };
             }
-            let Some(step) = best_step(ctx, &mut state, &mut iterations) else {
+            let Some(step) = best_step_within(
+                ctx,
+                &mut state,
+                &mut iterations,
+                usize::MAX,
+                true,
+                Some(budget),
+            ) else {
+                if budget.exhausted() {
+                    continue; // reported at the top of the loop
+                }
                 break;
             };
             // The step was ranked from trial sums; accept it only if the key

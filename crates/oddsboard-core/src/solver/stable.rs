@@ -339,6 +339,9 @@ pub struct StableSettings {
     pub stale_rounds: u64,
     /// Skip the disruption step: the best key among acceptable plans.
     pub from_scratch: bool,
+    /// Workers of the large-neighbourhood search after each heuristic
+    /// threshold search.
+    pub threads: usize,
 }
 
 pub struct StableOutcome {
@@ -447,6 +450,25 @@ pub fn stable_replan(
                     iterations += out.iterations;
                     stopped_by_budget |= out.stopped_by_budget;
                     leader = out.best;
+                    // A few LNS epochs under the same ranking: candidates
+                    // for the threshold that one descent cannot reach.
+                    if !out.stopped_by_budget && held.floors.is_empty() {
+                        let more = super::lns::lns(
+                            &held,
+                            leader,
+                            seed,
+                            &super::lns::LnsLimits {
+                                threads: settings.threads.max(1),
+                                stale_epochs: 2,
+                                max_epochs: 6,
+                            },
+                            &share,
+                            &mut |_, _, _, _| {},
+                        );
+                        iterations += more.iterations;
+                        stopped_by_budget |= more.stopped_by_budget;
+                        leader = more.best;
+                    }
                 }
                 leader = State::new(ctx, &leader.placement());
                 found.push(leader.clone());
