@@ -342,18 +342,7 @@ pub fn apply(state: &mut Incident, event: &Event) -> Result<(), ApplyError> {
         } => {
             let u = unit_of(state, unit)?;
             let k = trait_of(state, trait_id)?;
-            let found = state
-                .observations
-                .readings()
-                .iter()
-                .rev()
-                .find(|r| {
-                    r.unit == u
-                        && r.trait_idx == k
-                        && r.value == *value
-                        && sd.is_none_or(|s| r.sd == s)
-                })
-                .copied();
+            let found = state.observations.latest_matching(u, k, *value, *sd);
             match found {
                 Some(r) => {
                     state.withdraw_reading(&r);

@@ -163,15 +163,7 @@ pub fn inverse(inc: &Incident, event: &Event) -> Result<Vec<Event>, InverseError
             let k = trait_idx(trait_id)?;
             let r = inc
                 .observations
-                .readings()
-                .iter()
-                .rev()
-                .find(|r| {
-                    r.unit == u
-                        && r.trait_idx == k
-                        && r.value == *value
-                        && sd.is_none_or(|s| r.sd == s)
-                })
+                .latest_matching(u, k, *value, *sd)
                 .ok_or_else(|| {
                     InverseError::NotUndoable(format!("{unit} has no such reading to restore"))
                 })?;

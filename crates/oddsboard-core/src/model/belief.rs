@@ -187,6 +187,23 @@ impl Observations {
     pub fn is_empty(&self) -> bool {
         self.readings.is_empty()
     }
+    /// The latest reading of unit `u` in trait `k` with this value (and this
+    /// sd, when given): the one an `observation_withdrawn` record names.
+    pub fn latest_matching(
+        &self,
+        u: UnitIdx,
+        k: TraitIdx,
+        value: f64,
+        sd: Option<f64>,
+    ) -> Option<Reading> {
+        self.readings
+            .iter()
+            .rev()
+            .find(|r| {
+                r.unit == u && r.trait_idx == k && r.value == value && sd.is_none_or(|s| r.sd == s)
+            })
+            .copied()
+    }
     /// Number of readings of unit `u` in trait `k`.
     pub fn count(&self, u: UnitIdx, k: TraitIdx) -> usize {
         self.readings
