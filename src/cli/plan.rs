@@ -637,7 +637,7 @@ pub fn run(args: Args) -> CliResult {
     } else {
         match upper_bound {
             Some(b) => format!(
-                "best found, not proven; no plan can lift the worst odds above {}",
+                "best found, not proven; the worst odds of any plan are at most {}",
                 pct(b)
             ),
             None => "best found, not proven".to_string(),
