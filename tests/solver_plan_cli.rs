@@ -294,3 +294,47 @@ fn a_ground_already_acceptable_is_within_slack_and_kept() {
         "within 1 %; same disruption, same odds"
     );
 }
+
+/// A unit the plan takes off a task into reserve says why when the reserve
+/// ends exactly at its minimum (the invented warehouse sample after E17 is
+/// lost: the reserve engines go to the life tasks, so one unit must come
+/// back to keep `reserve_min: 1`).
+#[test]
+fn a_move_into_reserve_names_the_reserve_minimum() {
+    let dir = tempfile::tempdir().unwrap();
+    let log = dir.path().join("wh.log");
+    let sample = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/sample-incidents/warehouse-fire.yaml"
+    );
+    Command::cargo_bin("oddsboard")
+        .unwrap()
+        .args(["start", "--log"])
+        .arg(&log)
+        .arg(sample)
+        .assert()
+        .success();
+    Command::cargo_bin("oddsboard")
+        .unwrap()
+        .arg("record")
+        .arg(&log)
+        .arg(r#"{"kind":"unit_lost","unit":"E17"}"#)
+        .assert()
+        .success();
+    let out = Command::cargo_bin("oddsboard")
+        .unwrap()
+        .arg("plan")
+        .arg(&log)
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let text = String::from_utf8(out.stdout).unwrap();
+    let into_reserve: Vec<&str> = text.lines().filter(|l| l.contains(" → reserve")).collect();
+    assert!(!into_reserve.is_empty(), "{text}");
+    for l in into_reserve {
+        assert!(
+            l.ends_with("(keeps the reserve at its minimum of 1)"),
+            "{l}"
+        );
+    }
+}

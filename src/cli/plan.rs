@@ -669,9 +669,22 @@ pub fn run(args: Args) -> CliResult {
         listed.sort_by_key(|m| {
             std::cmp::Reverse(unit_disruption(&incident, m.from, m.to).withdrawals)
         });
+        // A unit taken off a task into reserve is there for the reserve
+        // minimum when the plan leaves the reserve exactly at it: say so.
+        let reserve_after = crate::rules::reserve_count(&incident, &report.placement);
+        let for_reserve =
+            incident.reserve_min > 0 && reserve_after == incident.reserve_min as usize;
         for m in listed {
+            let why = if for_reserve && m.from.is_some() && m.to.is_none() {
+                format!(
+                    " (keeps the reserve at its minimum of {})",
+                    incident.reserve_min
+                )
+            } else {
+                String::new()
+            };
             out.push_str(&format!(
-                "  {}: {} → {}\n",
+                "  {}: {} → {}{why}\n",
                 incident.units[m.unit].id,
                 task_name(&incident, m.from),
                 task_name(&incident, m.to)
