@@ -20,21 +20,6 @@ fn raw_controls(out: &[u8]) -> Vec<String> {
         .collect()
 }
 
-/// A YAML double-quoted scalar holding `s` exactly (YAML 1.2 escapes).
-fn yaml_quoted(s: &str) -> String {
-    let mut out = String::from("\"");
-    for c in s.chars() {
-        match c {
-            '"' => out.push_str("\\\""),
-            '\\' => out.push_str("\\\\"),
-            c if c.is_control() => out.push_str(&format!("\\x{:02x}", c as u32)),
-            c => out.push(c),
-        }
-    }
-    out.push('"');
-    out
-}
-
 /// JSON text with every control character escaped as `\uXXXX` (serde_json
 /// leaves DEL and C1 raw, which the YAML reader of events refuses).
 fn json_line(v: &serde_json::Value) -> String {

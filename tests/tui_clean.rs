@@ -5,9 +5,12 @@
 //! (ratatui itself drops control characters from its buffer; the tests
 //! check that the text is shown escaped rather than silently altered.)
 
+#[path = "log_fixtures/common.rs"]
+mod common;
 mod tui_common;
 
 use chrono::TimeZone;
+use common::yaml_quoted;
 use oddsboard::log::{Event, Record};
 use oddsboard::tui::app::{AppEvent, update};
 use oddsboard::tui::{AppState, Mode};
@@ -31,21 +34,6 @@ fn dirty() -> impl Strategy<Value = String> {
         "[a-z ]{0,6}",
     ];
     proptest::collection::vec(pieces, 1..6).prop_map(|v| v.concat())
-}
-
-/// A YAML double-quoted scalar holding `s` exactly (YAML 1.2 escapes).
-fn yaml_quoted(s: &str) -> String {
-    let mut out = String::from("\"");
-    for c in s.chars() {
-        match c {
-            '"' => out.push_str("\\\""),
-            '\\' => out.push_str("\\\\"),
-            c if c.is_control() => out.push_str(&format!("\\x{:02x}", c as u32)),
-            c => out.push(c),
-        }
-    }
-    out.push('"');
-    out
 }
 
 /// The drill with dirty text in the incident name, a trait's label and

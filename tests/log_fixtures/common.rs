@@ -38,3 +38,18 @@ pub fn sample_log(dir: &Path) -> PathBuf {
 pub fn bin() -> assert_cmd::Command {
     assert_cmd::Command::cargo_bin("oddsboard").expect("binary built")
 }
+
+/// A YAML double-quoted scalar holding `s` exactly (YAML 1.2 escapes).
+pub fn yaml_quoted(s: &str) -> String {
+    let mut out = String::from("\"");
+    for c in s.chars() {
+        match c {
+            '"' => out.push_str("\\\""),
+            '\\' => out.push_str("\\\\"),
+            c if c.is_control() => out.push_str(&format!("\\x{:02x}", c as u32)),
+            c => out.push(c),
+        }
+    }
+    out.push('"');
+    out
+}

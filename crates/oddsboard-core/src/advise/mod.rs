@@ -169,7 +169,8 @@ pub struct Advice {
     /// Placed units whose loss was not assessed: the loss time limit was
     /// reached first ([`AdviseOptions::loss_time_limit`]).
     pub losses_not_assessed: usize,
-    /// Open tasks in board order.
+    /// Open tasks, life-safety first, then stabilization, then property
+    /// (the order the absorb time limit takes them in).
     pub absorb: Vec<TaskAbsorb>,
     /// One entry per tier that is not secure even with the best plan.
     pub requests: Vec<TierRequest>,
