@@ -213,3 +213,63 @@ fn labels_are_escaped_in_the_markdown() {
     let row = r.records().next().unwrap().unwrap();
     assert_eq!(&row[2], "Attack \\u{7} east | wing");
 }
+
+/// After a field reading the sheet lists the unit at its current estimate
+/// and keeps the rating beside it. With ρ = 0 the estimate is the conjugate
+/// normal update (Gelman et al., BDA 3rd ed. §2.5): precision-weighted mean
+/// of the rating and the reading, precision the sum of the two.
+#[test]
+fn a_field_reading_shows_on_the_sheet_beside_the_rating() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let yaml = dir.path().join("invented.yaml");
+    std::fs::write(
+        &yaml,
+        "incident: { name: Invented sheet reading test }\n\
+         traits: [ { id: water, unit: L/min } ]\n\
+         unit_types: [ { id: engine, rho: 0, traits: { water: { mean: 1900, sd: 250 } } } ]\n\
+         units: [ { id: E1, type: engine }, { id: E2, type: engine } ]\n\
+         tasks: [ { id: ATTACK, needs: { water: 1500 } } ]\n\
+         placement: { E1: ATTACK }\n",
+    )
+    .expect("write");
+    let log = dir.path().join("invented.log");
+    oddsboard()
+        .args(["start", "--log"])
+        .arg(&log)
+        .arg(&yaml)
+        .assert()
+        .success();
+    oddsboard()
+        .arg("record")
+        .arg(&log)
+        .arg("{kind: observed, unit: E1, trait: water, value: 1500, sd: 100}")
+        .assert()
+        .success();
+    let (m0, s0, y, e) = (1900.0_f64, 250.0_f64, 1500.0_f64, 100.0_f64);
+    let prec = 1.0 / (s0 * s0) + 1.0 / (e * e);
+    let (mean, sd) = ((m0 / (s0 * s0) + y / (e * e)) / prec, prec.powf(-0.5));
+    let v: serde_json::Value =
+        serde_json::from_str(&stdout(&["sheet", "--json"], &log)).expect("json");
+    let task = &v["tasks"][0];
+    let e1 = &task["units"][0];
+    assert_eq!(e1["id"], "E1");
+    let r = &e1["ratings"][0];
+    let f = |x: &serde_json::Value| x.as_f64().expect("number");
+    assert!((f(&r["mean"]) - mean).abs() < 1e-6, "{r}");
+    assert!((f(&r["sd"]) - sd).abs() < 1e-6, "{r}");
+    assert_eq!(f(&r["rated_mean"]), m0);
+    assert_eq!(f(&r["rated_sd"]), s0);
+    assert_eq!(r["readings"], 1);
+    let md = stdout(&["sheet"], &log);
+    let line = md.lines().find(|l| l.starts_with("| E1")).expect("E1 row");
+    assert!(
+        line.contains("water 1555 ± 92.8 L/min (rated 1900 ± 250, 1 reading)"),
+        "{line}"
+    );
+    // E2, never read and with ρ = 0, stays at its rating.
+    let e2 = md.lines().find(|l| l.starts_with("| E2")).expect("E2 row");
+    assert!(
+        e2.contains("water 1900 ± 250 L/min") && !e2.contains("rated"),
+        "{e2}"
+    );
+}

@@ -42,8 +42,15 @@ pub struct RatingView {
     #[serde(rename = "trait")]
     pub trait_id: String,
     pub unit: String,
+    /// The current estimate: the rating, or its posterior given the field
+    /// readings (docs/model.md, "Observations").
     pub mean: f64,
     pub sd: f64,
+    pub rated_mean: f64,
+    pub rated_sd: f64,
+    /// Readings of this unit in this trait (0 also for a type-mate moved
+    /// only through the shared factor).
+    pub readings: usize,
 }
 
 /// One unit as the sheet lists it.
@@ -130,11 +137,17 @@ fn unit_entry(inc: &Incident, u: UnitIdx, traits: &[usize]) -> SheetUnit {
         pinned: inc.pins.contains_key(&u),
         ratings: traits
             .iter()
-            .map(|&k| RatingView {
-                trait_id: inc.traits[k].id.clone(),
-                unit: inc.traits[k].unit.clone(),
-                mean: unit.ratings[k].mean,
-                sd: unit.ratings[k].sd,
+            .map(|&k| {
+                let now = inc.belief(u, k);
+                RatingView {
+                    trait_id: inc.traits[k].id.clone(),
+                    unit: inc.traits[k].unit.clone(),
+                    mean: now.mean,
+                    sd: now.sd(),
+                    rated_mean: unit.ratings[k].mean,
+                    rated_sd: unit.ratings[k].sd,
+                    readings: inc.observations.count(u, k),
+                }
             })
             .collect(),
     }
@@ -283,16 +296,21 @@ fn n_units(n: usize) -> String {
 }
 
 fn rating_text(r: &RatingView) -> String {
-    if r.sd > 0.0 {
-        format!(
-            "{} {} ± {} {}",
-            r.trait_id,
-            format_amount(r.mean),
-            format_amount(r.sd),
-            r.unit
-        )
+    let spread = |mean: f64, sd: f64| {
+        if sd > 0.0 {
+            format!("{} ± {}", format_amount(mean), format_amount(sd))
+        } else {
+            format_amount(mean)
+        }
+    };
+    let now = spread(r.mean, r.sd);
+    let rated = spread(r.rated_mean, r.rated_sd);
+    if now == rated {
+        format!("{} {now} {}", r.trait_id, r.unit)
     } else {
-        format!("{} {} {}", r.trait_id, format_amount(r.mean), r.unit)
+        // Field readings moved the estimate: the supervisor sees both.
+        let why = crate::odds::view::readings_reason(r.readings);
+        format!("{} {now} {} (rated {rated}, {why})", r.trait_id, r.unit)
     }
 }
 

@@ -157,11 +157,7 @@ pub struct RatingNow {
 impl RatingNow {
     /// `rated 1900 ± 250 → now 1700 ± 110 (2 readings)`.
     pub fn describe(&self) -> String {
-        let why = match self.readings {
-            0 => "through its type-mates' readings".to_string(),
-            1 => "1 reading".to_string(),
-            n => format!("{n} readings"),
-        };
+        let why = readings_reason(self.readings);
         format!(
             "rated {} ± {} → now {} ± {} ({why})",
             amount(self.rated_mean),
@@ -169,6 +165,16 @@ impl RatingNow {
             amount(self.mean),
             amount(self.sd)
         )
+    }
+}
+
+/// What moved an estimate: `1 reading`, `3 readings`, or (0) its
+/// type-mates' readings through the shared factor.
+pub fn readings_reason(readings: usize) -> String {
+    match readings {
+        0 => "through its type-mates' readings".to_string(),
+        1 => "1 reading".to_string(),
+        n => format!("{n} readings"),
     }
 }
 
