@@ -172,3 +172,77 @@ fn what_if_bad_event_exits_1() {
         .code(1)
         .stderr(predicate::str::contains("--what-if"));
 }
+
+/// Field readings that show a type stronger than rated count in the
+/// request: two engines read at 1400 (rated 1000 ± 200, ρ 0.5) lift the
+/// estimate of a requested engine through the shared factor, so one more
+/// engine secures the 3500 L/min task. At the ratings alone four are
+/// needed (the 99 % level against the type's shared spread), and a screen
+/// at the ratings would drop the one-engine set unsolved (2 × 1000 + 1000
+/// < 3500).
+#[test]
+fn advise_counts_field_readings_in_the_request() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let yaml = dir.path().join("invented.yaml");
+    std::fs::write(
+        &yaml,
+        "incident: { name: Invented reading request drill }\n\
+         traits: [ { id: water, unit: L/min } ]\n\
+         unit_types: [ { id: engine, rho: 0.5, traits: { water: { mean: 1000, sd: 200 } } } ]\n\
+         units: [ { id: E1, type: engine }, { id: E2, type: engine } ]\n\
+         tasks: [ { id: RESCUE, tier: life, needs: { water: 3500 } } ]\n\
+         placement: { E1: RESCUE, E2: RESCUE }\n",
+    )
+    .expect("write");
+    let log = dir.path().join("invented.log");
+    oddsboard()
+        .args(["start", "--log"])
+        .arg(&log)
+        .arg(&yaml)
+        .assert()
+        .success();
+    for unit in ["E1", "E2"] {
+        oddsboard()
+            .arg("record")
+            .arg(&log)
+            .arg(format!(
+                "{{kind: observed, unit: {unit}, trait: water, value: 1400, sd: 10}}"
+            ))
+            .assert()
+            .success();
+    }
+    let requested = |file: &std::path::Path| -> u64 {
+        let out = oddsboard()
+            .args(["advise", "--json"])
+            .arg(file)
+            .assert()
+            .success()
+            .get_output()
+            .stdout
+            .clone();
+        let v: serde_json::Value = serde_json::from_slice(&out).expect("json");
+        let set = &v["requests"][0]["outcome"]["sets"][0];
+        assert_eq!(v["requests"][0]["outcome"]["status"], "found", "{v}");
+        set["units"]
+            .as_array()
+            .expect("units")
+            .iter()
+            .map(|u| u["count"].as_u64().expect("count"))
+            .sum()
+    };
+    assert_eq!(requested(&yaml), 4, "at the ratings alone");
+    assert_eq!(requested(&log), 1, "with the readings");
+    let text = oddsboard()
+        .arg("advise")
+        .arg(&log)
+        .assert()
+        .success()
+        .get_output()
+        .stdout
+        .clone();
+    let text = String::from_utf8(text).expect("utf-8");
+    assert!(
+        text.contains("moved by their type-mates' field readings"),
+        "{text}"
+    );
+}

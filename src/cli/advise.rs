@@ -190,8 +190,13 @@ pub fn render(incident: &Incident, advice: &Advice, options: &AdviseOptions) -> 
         out.push('\n');
     }
 
+    let moved = if incident.observations.is_empty() {
+        ""
+    } else {
+        ", moved by their type-mates' field readings"
+    };
     out.push_str(&format!(
-        "Resource requests (unit types at their default ratings, up to {} extra units)\n",
+        "Resource requests (unit types at their default ratings{moved}, up to {} extra units)\n",
         options.max_extra_units
     ));
     if advice.requests.is_empty() {
@@ -279,7 +284,6 @@ pub fn render(incident: &Incident, advice: &Advice, options: &AdviseOptions) -> 
         }
         out.push('\n');
     }
-    let _ = incident;
     out.push_str(&caution_text());
     out
 }

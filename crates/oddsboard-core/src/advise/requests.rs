@@ -1,7 +1,10 @@
 //! Resource requests: for each tier that is not secure even with the best
 //! plan, the smallest set of extra units, drawn from the incident's unit
 //! types at their default ratings, that brings every task of the tier to its
-//! secure level when the solver places it.
+//! secure level when the solver places it. Field readings count: the units
+//! on the incident are screened at their current estimates and a requested
+//! unit at its type's rating moved by its type-mates' readings (the shared
+//! factor), as the solver then scores them.
 //!
 //! How the search runs, per tier (highest first):
 //! 1. The best plan of the roster as it stands (a from-scratch solve) says
@@ -254,7 +257,7 @@ impl Screen {
                 need_total[k] += threshold;
                 let mut means: Vec<f64> = crate::model::UnitIdx::range(incident.units.len())
                     .filter(|&u| may_go(incident, u, t))
-                    .map(|u| incident.units[u].ratings[k].mean)
+                    .map(|u| incident.belief(u, k).mean)
                     .collect();
                 means.sort_by(|a, b| b.total_cmp(a));
                 let mut prefix = vec![0.0];
@@ -275,7 +278,7 @@ impl Screen {
             .map(|k| {
                 let have: f64 = crate::model::UnitIdx::range(incident.units.len())
                     .filter(|&u| tasks.iter().any(|&t| may_go(incident, u, t)))
-                    .map(|u| incident.units[u].ratings[k].mean)
+                    .map(|u| incident.belief(u, k).mean)
                     .sum();
                 (k, need_total[k], have)
             })
@@ -285,13 +288,12 @@ impl Screen {
 
     /// Could the extra units `counts` (per type) possibly secure the tier?
     fn passes(&self, incident: &Incident, tasks: &[TaskIdx], counts: &[usize]) -> bool {
-        let types = &incident.unit_types;
         for l in &self.limits {
             let task = &incident.tasks[l.task];
             let mut extra: Vec<f64> = Vec::new();
             for (ty, &c) in counts.iter().enumerate() {
                 if c > 0 && task.accepts_type(ty) {
-                    extra.extend(std::iter::repeat_n(types[ty].ratings[l.k].mean, c));
+                    extra.extend(std::iter::repeat_n(incident.type_belief(ty, l.k).mean, c));
                 }
             }
             extra.sort_by(|a, b| b.total_cmp(a));
@@ -306,7 +308,7 @@ impl Screen {
                 .filter(|&(ty, &c)| {
                     c > 0 && tasks.iter().any(|&t| incident.tasks[t].accepts_type(ty))
                 })
-                .map(|(ty, &c)| c as f64 * types[ty].ratings[k].mean)
+                .map(|(ty, &c)| c as f64 * incident.type_belief(ty, k).mean)
                 .sum();
             if have + extra < need - 1e-9 * need.abs().max(1.0) {
                 return false;
@@ -326,7 +328,7 @@ fn unreachable(incident: &Incident, screen: &Screen) -> Vec<Unreachable> {
             .collect();
         let strongest = accepted
             .iter()
-            .map(|&ty| incident.unit_types[ty].ratings[l.k].mean)
+            .map(|&ty| incident.type_belief(ty, l.k).mean)
             .fold(0.0, f64::max);
         let trait_def = &incident.traits[l.k];
         let need = task.needs[l.k];

@@ -319,6 +319,23 @@ impl Incident {
             .unwrap_or_else(|| Belief::prior(r, rho))
     }
 
+    /// The belief about a new unit of type `t` at the type's rating in
+    /// trait `k` (a requested unit): informed only through the shared
+    /// factor, as an unobserved type-mate is.
+    pub fn type_belief(&self, t: TypeIdx, k: TraitIdx) -> Belief {
+        let r = self.unit_types[t].ratings[k];
+        let rho = self.unit_types[t].rho;
+        let prior = Belief::prior(r, rho);
+        match self.observations.shared_factor(t, k) {
+            Some((zm, zs)) => Belief {
+                mean: r.mean + prior.load * zm,
+                load: prior.load * zs,
+                own: prior.own,
+            },
+            None => prior,
+        }
+    }
+
     /// Adds a reading and updates its (type, trait) posterior: in O(units
     /// read of that type) through the information sums, in full only when
     /// the cell is degenerate (ρ = 1 and an exact reading).
