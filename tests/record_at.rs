@@ -220,3 +220,89 @@ fn the_drill_script_makes_the_bundled_log() {
         "re-run the script to refresh the bundled drill"
     );
 }
+
+/// `start` from a log carries its field readings: the new log's odds and
+/// readings equal the old log's end (the same posterior, recomputed from
+/// the carried `observed` records), including a reading weighed at the
+/// unit's rated sd (no `sd` given). A reading of a unit since lost cannot
+/// be named in the new snapshot; it is counted in a note, never dropped
+/// silently.
+#[test]
+fn start_from_a_log_carries_its_field_readings() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let yaml = dir.path().join("invented.yaml");
+    std::fs::write(
+        &yaml,
+        "incident: { name: Invented carried readings }\n\
+         traits: [ { id: water, unit: L/min } ]\n\
+         unit_types: [ { id: engine, rho: 0.4, traits: { water: { mean: 1000, sd: 200 } } } ]\n\
+         units: [ { id: E1, type: engine }, { id: E2, type: engine }, { id: E3, type: engine } ]\n\
+         tasks: [ { id: ATTACK, needs: { water: 2500 } } ]\n\
+         placement: { E1: ATTACK, E2: ATTACK, E3: ATTACK }\n",
+    )
+    .expect("write");
+    let old = dir.path().join("old.log");
+    oddsboard()
+        .args(["start", "--log"])
+        .arg(&old)
+        .arg(&yaml)
+        .assert()
+        .success();
+    for event in [
+        "{kind: observed, unit: E1, trait: water, value: 1250, sd: 50}",
+        "{kind: observed, unit: E2, trait: water, value: 900}",
+    ] {
+        oddsboard()
+            .arg("record")
+            .arg(&old)
+            .arg(event)
+            .assert()
+            .success();
+    }
+    let odds = |log: &Path| -> serde_json::Value {
+        let out = oddsboard()
+            .args(["odds", "--json"])
+            .arg(log)
+            .assert()
+            .success()
+            .get_output()
+            .stdout
+            .clone();
+        serde_json::from_slice(&out).expect("json")
+    };
+    let new = dir.path().join("new.log");
+    oddsboard()
+        .args(["start", "--log"])
+        .arg(&new)
+        .arg(&old)
+        .assert()
+        .success()
+        .stdout(predicates::str::contains("then its 2 field readings"));
+    let (a, b) = (odds(&old), odds(&new));
+    assert!(
+        a["readings"].as_array().is_some_and(|r| r.len() == 3),
+        "{a}"
+    );
+    assert_eq!(a["readings"], b["readings"]);
+    assert_eq!(a["tasks"], b["tasks"]);
+
+    // A lost unit's reading: counted, not carried.
+    oddsboard()
+        .arg("record")
+        .arg(&old)
+        .arg("{kind: unit_lost, unit: E1}")
+        .assert()
+        .success();
+    let after = dir.path().join("after.log");
+    oddsboard()
+        .args(["start", "--log"])
+        .arg(&after)
+        .arg(&old)
+        .assert()
+        .success()
+        .stderr(predicates::str::contains(
+            "1 field reading of units since lost do not carry",
+        ));
+    let c = odds(&after);
+    assert_eq!(c["readings"].as_array().map(Vec::len), Some(2), "{c}");
+}

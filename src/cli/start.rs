@@ -27,20 +27,33 @@ pub struct Args {
 
 pub fn run(args: Args) -> CliResult {
     let incident = load_state(&args.file)?;
-    if !incident.observations.is_empty() {
-        // A snapshot holds ratings, not readings (docs/model.md).
+    let by = actor(args.by);
+    let mut writer = LogWriter::create_at(&args.log, &incident, &by, args.at)?;
+    // A snapshot holds ratings, not readings (docs/model.md): the field
+    // readings follow it as `observed` records, each with the sd it was
+    // weighed with, so the new log's odds start where the old one's ended.
+    let left_out = match carry_readings(&mut writer, &incident, &by, args.at) {
+        Ok(n) => n,
+        Err(e) => {
+            // Nothing half-written stays behind: the log was created just now.
+            drop(writer);
+            let _ = std::fs::remove_file(&args.log);
+            return Err(e.into());
+        }
+    };
+    if left_out > 0 {
+        let readings = if left_out == 1 { "reading" } else { "readings" };
         eprintln!(
-            "note: the {} field readings of {} do not carry into the new log; its odds start from the ratings as rated (re-rate units first to keep what the readings showed)",
-            incident.observations.readings().len(),
+            "note: {left_out} field {readings} of units since lost do not carry into the new log (the snapshot has no lost units); their type-mates' estimates move less than in {}",
             args.file.display()
         );
     }
-    let writer = LogWriter::create_at(&args.log, &incident, &actor(args.by), args.at)?;
     let s = writer.state();
     if args.json {
         let v = serde_json::json!({
             "log": args.log.display().to_string(),
             "seq": writer.last_seq(),
+            "readings_carried": writer.last_seq() - 1,
             "incident": s.name,
             "units": s.roster_len(),
             "tasks": s.tasks.len(),
@@ -48,12 +61,44 @@ pub fn run(args: Args) -> CliResult {
         println!("{v}");
         return Ok(());
     }
+    let carried = writer.last_seq() - 1;
+    let then = match carried {
+        0 => String::new(),
+        1 => ", then its 1 field reading".to_string(),
+        n => format!(", then its {n} field readings"),
+    };
     println!(
-        "started {}: seq 1, incident snapshot of {} ({} units, {} tasks)",
+        "started {}: seq 1, incident snapshot of {} ({} units, {} tasks){then}",
         args.log.display(),
         crate::clean::clean(&s.name),
         s.roster_len(),
         s.tasks.len()
     );
     Ok(())
+}
+
+/// Appends one `observed` record per reading of `incident`, in the order
+/// they were applied; returns how many readings of lost units were left
+/// out (a snapshot has no lost units to name).
+fn carry_readings(
+    writer: &mut LogWriter,
+    incident: &crate::model::Incident,
+    by: &str,
+    at: Option<chrono::DateTime<chrono::Utc>>,
+) -> Result<usize, crate::log::LogError> {
+    let mut left_out = 0;
+    for r in incident.observations.readings() {
+        if incident.units[r.unit].is_lost() {
+            left_out += 1;
+            continue;
+        }
+        let event = crate::log::Event::Observed {
+            unit: incident.units[r.unit].id.clone(),
+            trait_id: incident.traits[r.trait_idx].id.clone(),
+            value: r.value,
+            sd: Some(r.sd),
+        };
+        writer.append_at(by, event, at)?;
+    }
+    Ok(left_out)
 }
