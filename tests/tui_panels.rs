@@ -409,3 +409,35 @@ fn the_picture_names_the_capability_and_the_margin_spread_apart() {
         .collect();
     assert!(!text.contains("margin spread"), "{text}");
 }
+
+/// A unit the proposal takes off a task into reserve says why when the
+/// plan holds the reserve exactly at its minimum (the same words as
+/// `plan`), and says nothing more when the reserve is above it.
+#[test]
+fn a_move_into_reserve_names_the_reserve_minimum_on_the_board() {
+    for (reserve_min, reason) in [(2, true), (1, false)] {
+        let text = tui_common::DRILL.replace(
+            "  started: 2026-05-14T09:20:00Z\n",
+            &format!("  started: 2026-05-14T09:20:00Z\n  reserve_min: {reserve_min}\n"),
+        );
+        let inc = oddsboard::model::parse_incident_str(&text, "drill.yaml").unwrap();
+        let mut s = state(Mode::Command, inc);
+        let mut plan = s.incident.placement.clone();
+        // Reserve now: E4 alone; W2 joins it.
+        plan.set(s.incident.unit_idx("W2").unwrap(), None);
+        s.proposal = Some(oddsboard::tui::board::Proposal::new(&s.incident, plan));
+        let lines: Vec<String> = oddsboard::tui::panel_units::lines(&s)
+            .iter()
+            .map(|l| l.to_string())
+            .collect();
+        let row = lines
+            .iter()
+            .find(|l| l.contains("W2 T4 → reserve"))
+            .unwrap_or_else(|| panic!("no W2 move: {lines:#?}"));
+        assert_eq!(
+            row.contains("(keeps the reserve at its minimum of 2)"),
+            reason,
+            "reserve_min {reserve_min}: {row}"
+        );
+    }
+}

@@ -671,18 +671,11 @@ pub fn run(args: Args) -> CliResult {
         });
         // A unit taken off a task into reserve is there for the reserve
         // minimum when the plan leaves the reserve exactly at it: say so.
-        let reserve_after = crate::rules::reserve_count(&incident, &report.placement);
-        let for_reserve =
-            incident.reserve_min > 0 && reserve_after == incident.reserve_min as usize;
+        let held = crate::rules::reserve_held_at_minimum(&incident, &report.placement);
         for m in listed {
-            let why = if for_reserve && m.from.is_some() && m.to.is_none() {
-                format!(
-                    " (keeps the reserve at its minimum of {})",
-                    incident.reserve_min
-                )
-            } else {
-                String::new()
-            };
+            let why = crate::rules::reserve_reason(held, m.from, m.to)
+                .map(|r| format!(" ({r})"))
+                .unwrap_or_default();
             out.push_str(&format!(
                 "  {}: {} → {}{why}\n",
                 incident.units[m.unit].id,

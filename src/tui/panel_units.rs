@@ -425,12 +425,16 @@ fn proposal_lines(state: &AppState, width: usize, max_rows: usize) -> Vec<Line<'
             fit(&format!("Proposed moves ({}){keys}", p.moves.len()), width),
             th.accent(),
         ));
+        let held = crate::rules::reserve_held_at_minimum(inc, &p.placement);
         let moves: Vec<String> = p
             .moves
             .iter()
             .map(|m| {
+                let why = crate::rules::reserve_reason(held, m.from, m.to)
+                    .map(|r| format!(" ({r})"))
+                    .unwrap_or_default();
                 format!(
-                    "{} {} → {}",
+                    "{} {} → {}{why}",
                     shown(&inc.units[m.unit].id),
                     shown(&place_name(inc, m.from)),
                     shown(&place_name(inc, m.to))

@@ -108,6 +108,28 @@ pub fn reserve_count(inc: &Incident, p: &Placement) -> usize {
         .count()
 }
 
+/// The reserve minimum a plan holds the reserve exactly at (`None` when
+/// the incident asks for no reserve or the plan leaves more). A unit such a
+/// plan takes off a task into reserve is there for the minimum, and the
+/// commander is told so ([`reserve_reason`]).
+pub fn reserve_held_at_minimum(inc: &Incident, plan: &Placement) -> Option<u32> {
+    (inc.reserve_min > 0 && reserve_count(inc, plan) == inc.reserve_min as usize)
+        .then_some(inc.reserve_min)
+}
+
+/// Why a move from a task to reserve is proposed, when the plan holds the
+/// reserve at its minimum (`held`, from [`reserve_held_at_minimum`]).
+pub fn reserve_reason(
+    held: Option<u32>,
+    from: Option<TaskIdx>,
+    to: Option<TaskIdx>,
+) -> Option<String> {
+    match (held, from, to) {
+        (Some(n), Some(_), None) => Some(format!("keeps the reserve at its minimum of {n}")),
+        _ => None,
+    }
+}
+
 /// May one more unit leave a reserve of `reserve` units?
 pub fn may_draw_reserve(reserve_min: u32, reserve: usize) -> bool {
     reserve > reserve_min as usize
