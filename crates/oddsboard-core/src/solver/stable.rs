@@ -189,6 +189,11 @@ fn prune_pairs(
             return false;
         }
         for &v in &moved[i + 1..] {
+            // Each pair costs a full key: thousands of moved units on
+            // 10 000 × 1 000 make one row seconds long.
+            if budget.exhausted() {
+                return false;
+            }
             let (fu, fv) = (state.place[u], state.place[v]);
             // Through reserve, so no task is over its maximum in between.
             state.apply_move(inc, u, None);
@@ -238,7 +243,16 @@ pub fn stable_plan(
         if ok || budget.exhausted() {
             break;
         }
-        match super::search::best_step(&held, &mut from_ground, &mut iterations) {
+        // Given up at the budget: a full scan at 10 000 × 1 000 takes
+        // seconds when no step helps.
+        match super::search::best_step_within(
+            &held,
+            &mut from_ground,
+            &mut iterations,
+            usize::MAX,
+            true,
+            Some(budget),
+        ) {
             Some(step) => {
                 let before = from_ground.key(&held);
                 let undo = apply_step(inc, &mut from_ground, step);
@@ -289,7 +303,11 @@ fn walk_toward(
             return None;
         }
         let mut best: Option<(UnitIdx, ObjectiveKey)> = None;
-        for &u in &ctx.movable {
+        for (i, &u) in ctx.movable.iter().enumerate() {
+            // One step is a full key per unit: seconds on 10 000 × 1 000.
+            if i % 16 == 0 && budget.exhausted() {
+                return None;
+            }
             let (from, to) = (s.place[u], leader.place[u]);
             if from == to
                 || to.is_some_and(|t| s.tallies[t].count() >= ctx.max_units[t])
@@ -371,10 +389,15 @@ fn absorb(
 /// Applies the rule from `best` (the best plan found, proven when
 /// `settings.exact`): thresholds entry by entry, then the least disruption
 /// from `ground` (or, from scratch, the best key) among acceptable plans.
+/// `also` are other plans found (e.g. the ground filled): the heuristic
+/// thresholds are read from them as well, so a plan that gives up an entry
+/// of the ground beyond the slack for small gains before it is not
+/// acceptable merely because the search stopped early (a cancel).
 pub fn stable_replan(
     ctx: &Ctx,
     ground: &Placement,
     best: &State,
+    also: &[State],
     settings: &StableSettings,
     budget: &Budget,
 ) -> StableOutcome {
@@ -388,6 +411,7 @@ pub fn stable_replan(
     let mut leader = best.clone();
     // Plans found on the way: the heuristic thresholds are read from them.
     let mut found = vec![best.clone()];
+    found.extend(also.iter().map(|s| State::new(ctx, &s.placement())));
     let tiers = ObjectiveKey::from_ln_odds(inc, &best.ln).entry_tiers();
     let n = tiers.len();
     let mut thr: Thresholds = Vec::with_capacity(n);
