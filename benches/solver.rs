@@ -65,7 +65,15 @@ fn scratch(budget: Duration) -> SolveOptions {
 /// incident after the placed unit with the most mean capability is lost.
 fn loss_pair(seed: u64) -> (Incident, Incident) {
     let mut inc = incident(100, 15, 4, seed);
-    let r = run(&inc, &scratch(Duration::from_millis(500)));
+    // A fixed amount of search work (not a clock budget), so the ground and
+    // hence the re-plan figures are the same on every machine and run.
+    let r = run(
+        &inc,
+        &SolveOptions {
+            max_epochs: 40,
+            ..scratch(Duration::from_secs(60))
+        },
+    );
     inc.placement = r.placement;
     let lost = oddsboard::model::UnitIdx::range(inc.units.len())
         .filter(|&u| inc.placement.get(u).is_some() && !inc.pins.contains_key(&u))
@@ -434,15 +442,19 @@ fn replan_after_loss() {
             fmt_key(&r5.key)
         );
         println!(
-            "  seed {seed}: first proposal {:.2} ms ({} moves), settled {:.1} ms ({} moves: {} withdrawals, {} dispatches; {})",
+            "  seed {seed}: first proposal {:.2} ms ({} moves), settled {:.1} ms, stop {} ({} moves: {} withdrawals, {} dispatches; {}; {} moves scored)",
             first[first.len() - 1],
             r0.moves.len(),
             r.elapsed.as_secs_f64() * 1e3,
+            r.stop.as_str(),
             r.moves.len(),
             r.disruption.withdrawals,
             r.disruption.dispatches,
-            fmt_key(&r.key)
+            fmt_key(&r.key),
+            r.iterations
         );
+        // The settled key in full (ln, capped entries), to compare runs.
+        println!("  seed {seed}: settled capped key {:?}", r.key.capped());
     }
     let p50 = |v: &mut Vec<f64>| {
         v.sort_by(f64::total_cmp);
