@@ -230,6 +230,10 @@ pub fn stable_plan(
     let g = &ground.0;
     let mut from_leader = leader.clone();
     prune_toward_ground(ctx, &mut from_leader, g, thr, budget);
+    if budget.cancelled() {
+        // The caller is waiting: the leader is acceptable as it is.
+        return from_leader;
+    }
 
     // Repair steps are ranked with each tier capped at its highest
     // threshold (fast, separable): a task below it is a bottleneck.
