@@ -152,7 +152,7 @@ fn a_large_generated_incident_checks_and_evaluates() {
 }
 
 /// Once minutes even in a release build; since issue 11 the plan keeps to
-/// its budget apart from fixed costs (about 10 s here in a debug build).
+/// its budget apart from fixed costs (the plan about 8 s in a debug build).
 #[test]
 fn a_large_generated_incident_plans() {
     // `advise` is left out: on 10 000 units its fragility pass re-plans once
