@@ -281,8 +281,8 @@ pub fn check_feasible(incident: &Incident) -> Result<(), SolveError> {
 
 /// Units × tasks up to which the final per-task bound is computed even
 /// when the budget is spent: it is linear in units × tasks with a sort per
-/// task and trait (about 25 ms at 2000 × 100 × 6, about 1 s at
-/// 10 000 × 1 000 × 6, measured on the shared machine).
+/// task and trait (tens of ms at 2000 × 100 × 6; 1.05 s measured at
+/// 10 000 × 1 000 × 6 on the shared machine).
 const BOUND_AFTER_BUDGET_MAX: usize = 1_000_000;
 
 /// The per-task upper bound of the report, or `None`: skipped on cancel (it
