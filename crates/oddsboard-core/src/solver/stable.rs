@@ -450,8 +450,10 @@ pub fn stable_replan(
                 proven = false;
                 stopped_by_budget = true;
             } else {
-                let held = ctx.with_focus(&thr);
                 if settings.exact && proven {
+                    // Built here only: a context copy is tens of ms at
+                    // 10 000 × 1 000, and the heuristic path ranks otherwise.
+                    let held = ctx.with_focus(&thr);
                     let key = leader.key(&held);
                     let out = exact::branch_and_bound(
                         &held,
