@@ -65,7 +65,15 @@ fn scratch(budget: Duration) -> SolveOptions {
 /// incident after the placed unit with the most mean capability is lost.
 fn loss_pair(seed: u64) -> (Incident, Incident) {
     let mut inc = incident(100, 15, 4, seed);
-    let r = run(&inc, &scratch(Duration::from_millis(500)));
+    // A fixed amount of search work (not a clock budget), so the ground and
+    // hence the re-plan figures are the same on every machine and run.
+    let r = run(
+        &inc,
+        &SolveOptions {
+            max_epochs: 40,
+            ..scratch(Duration::from_secs(60))
+        },
+    );
     inc.placement = r.placement;
     let lost = oddsboard::model::UnitIdx::range(inc.units.len())
         .filter(|&u| inc.placement.get(u).is_some() && !inc.pins.contains_key(&u))
@@ -136,44 +144,57 @@ fn figures() {
 }
 
 /// How long a solve takes to return after its cancel flag is raised, two
-/// threads, from scratch, flag raised 50–500 ms in (by a timer thread).
+/// threads, from scratch, flag raised 50–500 ms in (by a timer thread);
+/// then the stable re-plan from the ground of a 10 000 × 1 000 × 6 incident
+/// (first plan, rule), flag raised 20–500 ms in.
 fn cancel_latency() {
     println!("== cancel latency, two threads (from scratch) ==");
     for (name, inc) in search_incidents() {
-        let mut lat = Vec::new();
-        for (i, delay_ms) in [50u64, 120, 200, 350, 500].into_iter().enumerate() {
-            let cancel = std::sync::Arc::new(AtomicBool::new(false));
-            let flag = cancel.clone();
-            let raised = std::sync::Arc::new(std::sync::Mutex::new(None::<Instant>));
-            let at = raised.clone();
-            let timer = std::thread::spawn(move || {
-                std::thread::sleep(Duration::from_millis(delay_ms));
-                if let Ok(mut g) = at.lock() {
-                    *g = Some(Instant::now());
-                }
-                flag.store(true, std::sync::atomic::Ordering::Relaxed);
-            });
-            let opts = SolveOptions {
-                threads: 2,
-                seed: i as u64,
-                stale_rounds: u64::MAX,
-                ..scratch(Duration::from_secs(600))
-            };
-            let r = match solve(&inc, &opts, &cancel, &mut |_| {}) {
-                Ok(r) => r,
-                Err(e) => panic!("infeasible: {e}"),
-            };
-            let end = Instant::now();
-            let _ = timer.join();
-            let t0 = raised.lock().ok().and_then(|g| *g);
-            if let Some(t0) = t0 {
-                lat.push(end.duration_since(t0).as_secs_f64() * 1e3);
-            }
-            println!("  {name} cancel at {delay_ms} ms: stop {}", r.stop.as_str());
-        }
-        lat.sort_by(f64::total_cmp);
-        println!("  {name}: latency ms (sorted) {lat:.2?}");
+        cancel_runs(name, &inc, true, &[50, 120, 200, 350, 500]);
     }
+    let only = std::env::var("ODDSBOARD_INCIDENT").unwrap_or_default();
+    if only.is_empty() || only.split(',').any(|o| o == "10000x1000x6") {
+        println!("== cancel latency, two threads (re-plan from the ground) ==");
+        let inc = incident(10_000, 1_000, 6, 1);
+        cancel_runs("10000x1000x6", &inc, false, &[20, 100, 300, 500, 900]);
+    }
+}
+
+fn cancel_runs(name: &str, inc: &Incident, from_scratch: bool, delays: &[u64]) {
+    let mut lat = Vec::new();
+    for (i, &delay_ms) in delays.iter().enumerate() {
+        let cancel = std::sync::Arc::new(AtomicBool::new(false));
+        let flag = cancel.clone();
+        let raised = std::sync::Arc::new(std::sync::Mutex::new(None::<Instant>));
+        let at = raised.clone();
+        let timer = std::thread::spawn(move || {
+            std::thread::sleep(Duration::from_millis(delay_ms));
+            if let Ok(mut g) = at.lock() {
+                *g = Some(Instant::now());
+            }
+            flag.store(true, std::sync::atomic::Ordering::Relaxed);
+        });
+        let opts = SolveOptions {
+            threads: 2,
+            seed: i as u64,
+            stale_rounds: u64::MAX,
+            from_scratch,
+            ..scratch(Duration::from_secs(600))
+        };
+        let r = match solve(inc, &opts, &cancel, &mut |_| {}) {
+            Ok(r) => r,
+            Err(e) => panic!("infeasible: {e}"),
+        };
+        let end = Instant::now();
+        let _ = timer.join();
+        let t0 = raised.lock().ok().and_then(|g| *g);
+        if let Some(t0) = t0 {
+            lat.push(end.duration_since(t0).as_secs_f64() * 1e3);
+        }
+        println!("  {name} cancel at {delay_ms} ms: stop {}", r.stop.as_str());
+    }
+    lat.sort_by(f64::total_cmp);
+    println!("  {name}: latency ms (sorted) {lat:.2?}");
 }
 
 /// The benchmark incidents of issue 11 (seeded generator, seed 1; invented).
@@ -434,15 +455,19 @@ fn replan_after_loss() {
             fmt_key(&r5.key)
         );
         println!(
-            "  seed {seed}: first proposal {:.2} ms ({} moves), settled {:.1} ms ({} moves: {} withdrawals, {} dispatches; {})",
+            "  seed {seed}: first proposal {:.2} ms ({} moves), settled {:.1} ms, stop {} ({} moves: {} withdrawals, {} dispatches; {}; {} moves scored)",
             first[first.len() - 1],
             r0.moves.len(),
             r.elapsed.as_secs_f64() * 1e3,
+            r.stop.as_str(),
             r.moves.len(),
             r.disruption.withdrawals,
             r.disruption.dispatches,
-            fmt_key(&r.key)
+            fmt_key(&r.key),
+            r.iterations
         );
+        // The settled key in full (ln, capped entries), to compare runs.
+        println!("  seed {seed}: settled capped key {:?}", r.key.capped());
     }
     let p50 = |v: &mut Vec<f64>| {
         v.sort_by(f64::total_cmp);

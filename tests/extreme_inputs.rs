@@ -134,7 +134,7 @@ fn needs_of_1e300_give_finite_answers() {
 #[test]
 fn a_large_generated_incident_checks_and_evaluates() {
     // 10 000 units and 1 000 tasks (invented, seeded); a plan on it runs in
-    // the ignored test below (minutes).
+    // the test below.
     let dir = tempfile::tempdir().expect("tempdir");
     let path = dir.path().join("big.yaml");
     let p = path.to_str().expect("path");
@@ -151,8 +151,9 @@ fn a_large_generated_incident_checks_and_evaluates() {
     runs(&["simulate", p, "--trials", "20", "--json"]);
 }
 
+/// Once minutes even in a release build; since issue 11 the plan keeps to
+/// its budget apart from fixed costs (the plan about 8 s in a debug build).
 #[test]
-#[ignore = "minutes even in a release build; run with --ignored (figures in docs/performance.md)"]
 fn a_large_generated_incident_plans() {
     // `advise` is left out: on 10 000 units its fragility pass re-plans once
     // per placed unit and does not end within 10 minutes (a known limit,
@@ -164,7 +165,14 @@ fn a_large_generated_incident_plans() {
         "generate", "--units", "10000", "--tasks", "1000", "--traits", "5", "--seed", "1", "--out",
         p,
     ]);
-    runs(&["plan", p, "--budget-ms", "200", "--json"]);
+    let plan = runs(&["plan", p, "--budget-ms", "200", "--json"]);
+    let v: serde_json::Value = serde_json::from_str(&plan).expect("one JSON document");
+    // The budget ends the search on this size; the plan is still whole.
+    assert_eq!(v["stop"], "budget_exhausted", "{}", v["stop"]);
+    assert_eq!(v["placement"].as_object().map(|m| m.len()), Some(10_000));
+    let moves = v["moves"].as_array().map_or(0, Vec::len) as u64;
+    let counted = v["withdrawals"].as_u64().unwrap_or(0) + v["dispatches"].as_u64().unwrap_or(0);
+    assert!(counted <= moves, "{counted} disturbances, {moves} moves");
     runs(&["simulate", p, "--trials", "200", "--json"]);
 }
 

@@ -164,7 +164,9 @@ pub struct SolveReport {
     /// acceptable plan has less disruption (from scratch: a better key).
     pub proven_optimal: bool,
     /// An upper bound on the worst odds (over all open tasks) any feasible
-    /// plan can reach; `None` when the solve was cancelled.
+    /// plan can reach; `None` when the solve was cancelled, or when the
+    /// budget was spent on an incident of more than a million units × tasks
+    /// (it would take about a second more).
     pub upper_bound: Option<f64>,
     /// Candidate moves scored plus exact-search nodes.
     pub iterations: u64,
@@ -277,6 +279,21 @@ pub fn check_feasible(incident: &Incident) -> Result<(), SolveError> {
     }
 }
 
+/// Units × tasks up to which the final per-task bound is computed even
+/// when the budget is spent: it is linear in units × tasks with a sort per
+/// task and trait (tens of ms at 2000 × 100 × 6; 1.05 s measured at
+/// 10 000 × 1 000 × 6 on the shared machine).
+const BOUND_AFTER_BUDGET_MAX: usize = 1_000_000;
+
+/// The per-task upper bound of the report, or `None`: skipped on cancel (it
+/// would delay the return the caller is waiting for) and, past
+/// [`BOUND_AFTER_BUDGET_MAX`], when the budget is spent.
+fn final_bound(ctx: &Ctx, budget: &Budget) -> Option<f64> {
+    let size = ctx.inc.units.len().saturating_mul(ctx.inc.tasks.len());
+    let affordable = !budget.exhausted() || size <= BOUND_AFTER_BUDGET_MAX;
+    (!budget.cancelled() && affordable).then(|| exact::worst_odds_upper_bound(ctx))
+}
+
 /// Recommends a placement. See the module docs for the method; the caller
 /// owns the budget (in `options`) and the cancel flag, which is checked
 /// between steps of the search (every few hundred exact-search nodes).
@@ -305,26 +322,49 @@ pub fn solve(
         });
     };
 
-    // 1. Greedy first plans.
-    let mut starts = vec![Placement::all_reserve(inc.units.len())];
+    // 1. Greedy first plans. The ground and the warm start are filled
+    // first: on a very large incident filling an empty board takes seconds
+    // (10 000 units), so when there is a ground or a warm start the empty
+    // board gets at most a quarter of the budget. Ties go to the empty
+    // board, then the ground, then the warm start (rank), whatever the
+    // order they were filled in.
+    let mut starts: Vec<(u8, Placement)> = Vec::new();
     if stable {
-        starts.push(inc.placement.clone());
+        starts.push((1, inc.placement.clone()));
     }
     if let Some(w) = &options.warm_start
         && w.len() == inc.units.len()
     {
-        starts.push(w.clone());
+        starts.push((2, w.clone()));
     }
-    let mut best: Option<(State, ObjectiveKey)> = None;
-    for p in &starts {
+    let empty_share = if starts.is_empty() { 1.0 } else { 0.25 };
+    starts.push((0, Placement::all_reserve(inc.units.len())));
+    let mut best: Option<(u8, State, ObjectiveKey)> = None;
+    // The ground filled: a plan found like any other, so the rule's
+    // thresholds are read from it too (below).
+    let mut ground_filled: Option<State> = None;
+    for (rank, p) in &starts {
+        let share = if *rank == 0 {
+            budget.share(empty_share)
+        } else {
+            budget.share(1.0)
+        };
         let mut s = State::new(&ctx, &ctx.repair(p));
-        greedy_fill(&ctx, &mut s, Some(&budget));
+        greedy_fill(&ctx, &mut s, Some(&share));
+        if *rank == 1 {
+            ground_filled = Some(s.clone());
+        }
         let k = s.key(&ctx);
-        if best.as_ref().is_none_or(|(_, bk)| k.better_than(bk)) {
-            best = Some((s, k));
+        let wins = best.as_ref().is_none_or(|(br, _, bk)| match k.compare(bk) {
+            std::cmp::Ordering::Greater => true,
+            std::cmp::Ordering::Equal => rank < br,
+            std::cmp::Ordering::Less => false,
+        });
+        if wins {
+            best = Some((*rank, s, k));
         }
     }
-    let Some((first, first_key)) = best else {
+    let Some((_, first, first_key)) = best else {
         unreachable!("at least one start plan");
     };
     report(&first, &first_key, 0, true);
@@ -412,6 +452,7 @@ pub fn solve(
         &ctx,
         &inc.placement,
         &best_state,
+        ground_filled.as_slice(),
         &stable::StableSettings {
             slack: options.slack,
             seed: options.seed,
@@ -446,9 +487,7 @@ pub fn solve(
         placement,
         key,
         proven_optimal: proven,
-        // Skipped on cancel: linear in units × tasks, it would delay the
-        // return the caller is waiting for (tens of ms at 2000 × 100).
-        upper_bound: (!budget.cancelled()).then(|| exact::worst_odds_upper_bound(&ctx)),
+        upper_bound: final_bound(&ctx, &budget),
         iterations,
         elapsed: budget.elapsed(),
         stop,

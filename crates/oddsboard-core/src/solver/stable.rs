@@ -189,6 +189,11 @@ fn prune_pairs(
             return false;
         }
         for &v in &moved[i + 1..] {
+            // Each pair costs a full key: thousands of moved units on
+            // 10 000 × 1 000 make one row seconds long.
+            if budget.exhausted() {
+                return false;
+            }
             let (fu, fv) = (state.place[u], state.place[v]);
             // Through reserve, so no task is over its maximum in between.
             state.apply_move(inc, u, None);
@@ -225,24 +230,41 @@ pub fn stable_plan(
     let g = &ground.0;
     let mut from_leader = leader.clone();
     prune_toward_ground(ctx, &mut from_leader, g, thr, budget);
+    if budget.cancelled() {
+        // The caller is waiting: the leader is acceptable as it is.
+        return from_leader;
+    }
 
     // Repair steps are ranked with each tier capped at its highest
     // threshold (fast, separable): a task below it is a bottleneck.
-    let tiers = ObjectiveKey::from_ln_odds(inc, &leader.ln).entry_tiers();
-    let held = ctx.with_caps(top_caps(ctx, &tiers, thr));
     let mut from_ground = State::new(ctx, &ctx.repair(ground));
     let mut iterations = 0;
     let mut ok = meets(ctx, &from_ground, thr);
+    // Built only when needed: a context copy is tens of ms at 10 000 × 1 000.
+    let held = (!ok && !budget.exhausted()).then(|| {
+        let tiers = ObjectiveKey::from_ln_odds(inc, &leader.ln).entry_tiers();
+        ctx.with_caps(top_caps(ctx, &tiers, thr))
+    });
     let step_limit = 4 * inc.units.len() + 16;
     for _ in 0..step_limit {
+        let Some(held) = held.as_ref() else { break };
         if ok || budget.exhausted() {
             break;
         }
-        match super::search::best_step(&held, &mut from_ground, &mut iterations) {
+        // Given up at the budget: a full scan at 10 000 × 1 000 takes
+        // seconds when no step helps.
+        match super::search::best_step_within(
+            held,
+            &mut from_ground,
+            &mut iterations,
+            usize::MAX,
+            true,
+            Some(budget),
+        ) {
             Some(step) => {
-                let before = from_ground.key(&held);
+                let before = from_ground.key(held);
                 let undo = apply_step(inc, &mut from_ground, step);
-                if !from_ground.key(&held).better_than(&before) {
+                if !from_ground.key(held).better_than(&before) {
                     apply_step(inc, &mut from_ground, undo);
                     break;
                 }
@@ -279,8 +301,14 @@ fn walk_toward(
     budget: &Budget,
 ) -> Option<State> {
     let inc = ctx.inc;
-    let held = ctx.with_floors(thr);
     let mut s = State::new(ctx, &ctx.repair(ground));
+    if meets(ctx, &s, thr) {
+        return Some(s);
+    }
+    if budget.exhausted() {
+        return None;
+    }
+    let held = ctx.with_floors(thr);
     for _ in 0..=ctx.movable.len() {
         if meets(ctx, &s, thr) {
             return Some(s);
@@ -289,7 +317,11 @@ fn walk_toward(
             return None;
         }
         let mut best: Option<(UnitIdx, ObjectiveKey)> = None;
-        for &u in &ctx.movable {
+        for (i, &u) in ctx.movable.iter().enumerate() {
+            // One step is a full key per unit: seconds on 10 000 × 1 000.
+            if i % 16 == 0 && budget.exhausted() {
+                return None;
+            }
             let (from, to) = (s.place[u], leader.place[u]);
             if from == to
                 || to.is_some_and(|t| s.tallies[t].count() >= ctx.max_units[t])
@@ -371,10 +403,15 @@ fn absorb(
 /// Applies the rule from `best` (the best plan found, proven when
 /// `settings.exact`): thresholds entry by entry, then the least disruption
 /// from `ground` (or, from scratch, the best key) among acceptable plans.
+/// `also` are other plans found (e.g. the ground filled): the heuristic
+/// thresholds are read from them as well, so a plan that gives up an entry
+/// of the ground beyond the slack for small gains before it is not
+/// acceptable merely because the search stopped early (a cancel).
 pub fn stable_replan(
     ctx: &Ctx,
     ground: &Placement,
     best: &State,
+    also: &[State],
     settings: &StableSettings,
     budget: &Budget,
 ) -> StableOutcome {
@@ -388,13 +425,20 @@ pub fn stable_replan(
     let mut leader = best.clone();
     // Plans found on the way: the heuristic thresholds are read from them.
     let mut found = vec![best.clone()];
+    found.extend(also.iter().map(|s| State::new(ctx, &s.placement())));
     let tiers = ObjectiveKey::from_ln_odds(inc, &best.ln).entry_tiers();
     let n = tiers.len();
     let mut thr: Thresholds = Vec::with_capacity(n);
     let mut relaxed = false;
+    // Keys of the plans found and of the leader, kept in step with them:
+    // one key is a sort of every task, and there is one entry per task
+    // (rebuilding them per entry took 0.13 s at 1 000 tasks).
+    let key_of = |s: &State| ObjectiveKey::from_ln_odds(inc, &s.ln);
+    let mut keys: Vec<ObjectiveKey> = found.iter().map(key_of).collect();
+    let mut leader_key = key_of(&leader);
     for e in 0..n {
         let cap = ctx.caps[tiers[e].index()];
-        let v = ObjectiveKey::from_ln_odds(inc, &leader.ln).capped()[e];
+        let v = leader_key.capped()[e];
         // Only a relaxed threshold before e can let entry e rise, and not
         // above its secure level. The heuristic path searches once per
         // tier (at its first entry) and reads the other entries from the
@@ -406,8 +450,10 @@ pub fn stable_replan(
                 proven = false;
                 stopped_by_budget = true;
             } else {
-                let held = ctx.with_focus(&thr);
                 if settings.exact && proven {
+                    // Built here only: a context copy is tens of ms at
+                    // 10 000 × 1 000, and the heuristic path ranks otherwise.
+                    let held = ctx.with_focus(&thr);
                     let key = leader.key(&held);
                     let out = exact::branch_and_bound(
                         &held,
@@ -471,13 +517,11 @@ pub fn stable_replan(
                     }
                 }
                 leader = State::new(ctx, &leader.placement());
+                leader_key = key_of(&leader);
                 found.push(leader.clone());
+                keys.push(leader_key.clone());
             }
         }
-        let keys: Vec<ObjectiveKey> = found
-            .iter()
-            .map(|s| ObjectiveKey::from_ln_odds(inc, &s.ln))
-            .collect();
         // best_e over the plans found that meet the thresholds so far (the
         // leader, which does, when the search was exact).
         let b = keys
@@ -489,13 +533,15 @@ pub fn stable_replan(
         relaxed |= t < b;
         thr.push(t);
         // The next search starts from the best plan meeting every threshold.
-        if !meets(ctx, &leader, &thr)
-            && let Some(s) = found
+        if !leader_key.meets(&thr)
+            && let Some((s, k)) = found
                 .iter()
-                .filter(|s| meets(ctx, s, &thr))
-                .max_by(|a, b| a.key(ctx).compare(&b.key(ctx)))
+                .zip(&keys)
+                .filter(|(_, k)| k.meets(&thr))
+                .max_by(|a, b| a.0.key(ctx).compare(&b.0.key(ctx)))
         {
             leader = s.clone();
+            leader_key = k.clone();
         }
     }
 
