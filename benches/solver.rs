@@ -145,7 +145,7 @@ fn steps_per_worker(epochs: u64) -> u64 {
 }
 
 /// The both-cores speed-up counted in work, not wall time (the machine is
-/// shared). Seeds 1–5 run `ODDSBOARD_EPOCHS` (default 40) LNS epochs on one
+/// shared). Seeds 1–5 (`ODDSBOARD_SEEDS`) run `ODDSBOARD_EPOCHS` (default 40) LNS epochs on one
 /// thread and twice that on two; the fixed key is the worst of the five
 /// one-thread results (so every one-thread run reaches it). For each run the
 /// LNS steps each worker did until its best key reached the fixed key are
@@ -158,7 +158,11 @@ fn speedup_in_work() {
         .ok()
         .and_then(|x| x.parse().ok())
         .unwrap_or(40);
-    println!("== work to a fixed key, one vs two threads (from scratch, seeds 1-5) ==");
+    let seeds: u64 = std::env::var("ODDSBOARD_SEEDS")
+        .ok()
+        .and_then(|x| x.parse().ok())
+        .unwrap_or(5);
+    println!("== work to a fixed key, one vs two threads (from scratch, seeds 1-{seeds}) ==");
     for (name, inc) in search_incidents() {
         let opts = |seed: u64, threads: usize, max_epochs: u64| SolveOptions {
             seed,
@@ -168,7 +172,7 @@ fn speedup_in_work() {
             ..scratch(Duration::from_secs(3600))
         };
         let mut traces: Vec<(u64, usize, usize, Vec<(f64, ObjectiveKey, bool)>)> = Vec::new();
-        for seed in 1..=5u64 {
+        for seed in 1..=seeds {
             // Reports before the LNS (greedy plan, first descent): the same
             // for every thread count; then one per epoch.
             let offset = run_search_all(&inc, &opts(seed, 1, 0)).1.len();
