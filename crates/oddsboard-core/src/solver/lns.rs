@@ -25,11 +25,11 @@
 //! (worker w picks the w-th worst task half the time), and [`merge`] makes
 //! the next round's plan: the best key leads, and each other worker that
 //! improved on the round's plan is grafted on when its changes touch other
-//! units and other tasks and the joined plan is better still. Improving
-//! steps are rare (a few in a hundred at 600 × 40), so syncing after every
-//! step lets two workers find the next improvement in about half the
-//! rounds; syncing after 16 steps each let the second worker's trajectory
-//! run on from a plan the merge then threw away.
+//! units and other tasks and the joined plan is better still. Syncing
+//! after every step gives each round two draws at the next improvement;
+//! syncing after 16 steps each let the second worker's trajectory run on
+//! from a plan the merge then threw away (docs/performance.md has the
+//! work counts of both).
 //!
 //! **Determinism.** Worker w of epoch e draws from one generator seeded by
 //! (seed, e, w) for all its steps of that epoch; a step reads only the
