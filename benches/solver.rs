@@ -171,7 +171,8 @@ fn speedup_in_work() {
             stale_rounds: u64::MAX,
             ..scratch(Duration::from_secs(3600))
         };
-        let mut traces: Vec<(u64, usize, usize, Vec<(f64, ObjectiveKey, bool)>)> = Vec::new();
+        // (seed, threads, reports before the LNS, every report)
+        let mut traces: Vec<(u64, usize, usize, Trace)> = Vec::new();
         for seed in 1..=seeds {
             // Reports before the LNS (greedy plan, first descent): the same
             // for every thread count; then one per epoch.
@@ -232,12 +233,12 @@ fn speedup_in_work() {
     }
 }
 
+/// (elapsed s, best key, improved) of every progress report.
+type Trace = Vec<(f64, ObjectiveKey, bool)>;
+
 /// Like [`run_search`], every progress report (improved or not): in the
 /// LNS one per epoch.
-fn run_search_all(
-    inc: &Incident,
-    opts: &SolveOptions,
-) -> (SolveReport, Vec<(f64, ObjectiveKey, bool)>) {
+fn run_search_all(inc: &Incident, opts: &SolveOptions) -> (SolveReport, Trace) {
     let mut trace = Vec::new();
     let r = match solve(inc, opts, &AtomicBool::new(false), &mut |p| {
         trace.push((p.elapsed.as_secs_f64(), p.key.clone(), p.improved));
