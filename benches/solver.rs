@@ -111,7 +111,8 @@ fn fmt_key(k: &ObjectiveKey) -> String {
 }
 
 /// `ODDSBOARD_FIGURES=1` prints every section; a section's name (`reach`,
-/// `budget`, `replan`, `samples`, `baselines`) prints only that one.
+/// `budget`, `replan`, `samples`, `baselines`, `search`, `speedup`,
+/// `cancel`, `work`) prints only that one.
 fn section(name: &str) -> bool {
     std::env::var("ODDSBOARD_FIGURES").is_ok_and(|v| v == "1" || v == name)
 }
@@ -141,6 +142,119 @@ fn figures() {
     if section("cancel") {
         cancel_latency();
     }
+    if section("work") {
+        speedup_in_work();
+    }
+}
+
+/// LNS steps each worker does in its first `epochs` epochs.
+fn steps_per_worker(epochs: u64) -> u64 {
+    (0..epochs).map(oddsboard::solver::lns::epoch_steps).sum()
+}
+
+/// The both-cores speed-up counted in work, not wall time (the machine is
+/// shared). Seeds 1–5 (`ODDSBOARD_SEEDS`) run `ODDSBOARD_EPOCHS` (default 40) LNS epochs on one
+/// thread and twice that on two; the fixed key is the worst of the five
+/// one-thread results (so every one-thread run reaches it). For each run the
+/// LNS steps each worker did until its best key reached the fixed key are
+/// counted; the speed-up is the ratio of the sums over seeds (the wall-clock
+/// speed-up when each worker has a core of its own and the merge is cheap).
+/// The runs stop by epochs, never by the clock, so the counts are the same
+/// on any machine; the times beside them are not.
+fn speedup_in_work() {
+    let epochs: u64 = std::env::var("ODDSBOARD_EPOCHS")
+        .ok()
+        .and_then(|x| x.parse().ok())
+        .unwrap_or(40);
+    let seeds: u64 = std::env::var("ODDSBOARD_SEEDS")
+        .ok()
+        .and_then(|x| x.parse().ok())
+        .unwrap_or(5);
+    println!("== work to a fixed key, one vs two threads (from scratch, seeds 1-{seeds}) ==");
+    for (name, inc) in search_incidents() {
+        let opts = |seed: u64, threads: usize, max_epochs: u64| SolveOptions {
+            seed,
+            threads,
+            max_epochs,
+            stale_rounds: u64::MAX,
+            ..scratch(Duration::from_secs(3600))
+        };
+        // (seed, threads, reports before the LNS, every report)
+        let mut traces: Vec<(u64, usize, usize, Trace)> = Vec::new();
+        for seed in 1..=seeds {
+            // Reports before the LNS (greedy plan, first descent): the same
+            // for every thread count; then one per epoch.
+            let offset = run_search_all(&inc, &opts(seed, 1, 0)).1.len();
+            for threads in [1usize, 2] {
+                let max = epochs * threads as u64;
+                traces.push((
+                    seed,
+                    threads,
+                    offset,
+                    run_search_all(&inc, &opts(seed, threads, max)).1,
+                ));
+            }
+        }
+        let Some(target) = traces
+            .iter()
+            .filter(|(_, th, _, _)| *th == 1)
+            .filter_map(|(_, _, _, t)| t.last().map(|x| x.1.clone()))
+            .min_by(|a, b| a.compare(b))
+        else {
+            continue;
+        };
+        println!("  {name}: fixed key {}", fmt_key(&target));
+        let mut sum = [0u64; 2];
+        let mut missed = [0u32; 2];
+        for (seed, threads, offset, trace) in &traces {
+            let hit = trace
+                .iter()
+                .position(|(_, k, _)| k.compare(&target) != std::cmp::Ordering::Less);
+            let i = threads - 1;
+            match hit {
+                Some(p) => {
+                    let e = (p + 1).saturating_sub(*offset) as u64;
+                    sum[i] += steps_per_worker(e);
+                    println!(
+                        "    seed {seed} t{threads}: {e} epochs, {} steps per worker, {:.2} s",
+                        steps_per_worker(e),
+                        trace[p].0
+                    );
+                }
+                None => {
+                    missed[i] += 1;
+                    println!(
+                        "    seed {seed} t{threads}: not reached in {} epochs ({})",
+                        epochs * *threads as u64,
+                        trace.last().map_or("-".into(), |x| fmt_key(&x.1))
+                    );
+                }
+            }
+        }
+        println!(
+            "  {name}: steps per worker to the key, sum over seeds: 1 thread {}, 2 threads {} ({} missed): work speed-up {:.2}x",
+            sum[0],
+            sum[1],
+            missed[1],
+            sum[0] as f64 / sum[1].max(1) as f64
+        );
+    }
+}
+
+/// (elapsed s, best key, improved) of every progress report.
+type Trace = Vec<(f64, ObjectiveKey, bool)>;
+
+/// Like [`run_search`], every progress report (improved or not): in the
+/// LNS one per epoch.
+fn run_search_all(inc: &Incident, opts: &SolveOptions) -> (SolveReport, Trace) {
+    let mut trace = Vec::new();
+    let r = match solve(inc, opts, &AtomicBool::new(false), &mut |p| {
+        trace.push((p.elapsed.as_secs_f64(), p.key.clone(), p.improved));
+    }) {
+        Ok(r) => r,
+        Err(e) => panic!("infeasible: {e}"),
+    };
+    (r, trace)
 }
 
 /// How long a solve takes to return after its cancel flag is raised, two

@@ -18,23 +18,39 @@
 //! for seconds. Releasing the bottleneck together with the tasks holding its
 //! useful units lets a whole group of units change hands at once.
 //!
-//! **Determinism.** Epoch e runs `threads` workers from the same plan;
-//! worker w draws from a generator seeded by (seed, e, w) and does a fixed
-//! number of steps (1, 2, 4, 8, then 16 per epoch). At the epoch's end the
-//! workers' plans are merged in worker order: the best key wins, the lowest
-//! worker on ties. The clock and the cancel flag only decide how many
-//! epochs complete; an epoch cut short is dropped whole. So the plan is a
-//! function of the incident, the seed, the thread count and the number of
-//! completed epochs, and when the search ends on its own (`stale_epochs`
-//! or `max_epochs`) it does not depend on the machine at all.
+//! **Both cores.** Epoch e is `epoch_steps(e)` rounds. In a round each of
+//! `threads` workers does one step from the same plan (worker 0 on the
+//! calling thread, the others in a pool that lives as long as the search,
+//! so no thread is started per round), favouring a different bottleneck
+//! (worker w picks the w-th worst task half the time), and [`merge`] makes
+//! the next round's plan: the best key leads, and each other worker that
+//! improved on the round's plan is grafted on when its changes touch other
+//! units and other tasks and the joined plan is better still. Syncing
+//! after every step gives each round two draws at the next improvement;
+//! syncing after 16 steps each let the second worker's trajectory run on
+//! from a plan the merge then threw away (docs/performance.md has the
+//! work counts of both).
+//!
+//! **Determinism.** Worker w of epoch e draws from one generator seeded by
+//! (seed, e, w) for all its steps of that epoch; a step reads only the
+//! round's plan, and the merge takes the workers' plans in worker order
+//! (the lowest worker on ties), whatever order they finished in. The clock
+//! and the cancel flag only decide how many epochs complete; an epoch cut
+//! short is dropped whole. So the plan is a function of the incident, the
+//! seed, the thread count and the number of completed epochs, and when the
+//! search ends on its own (`stale_epochs` or `max_epochs`) it does not
+//! depend on the machine at all. One thread follows the same trajectory as
+//! before the pool (one generator per epoch, steps accepted when not worse).
 
 use super::Budget;
 use super::key::{ObjectiveKey, TaskChange, cmp_ln, compare_change_capped};
 use super::search::{Ctx, State, apply_step, best_step_within, ln_odds_ignoring_minimum};
 use crate::model::{TaskIdx, UnitIdx};
+use crate::rules;
 use rand::rngs::Xoshiro256PlusPlus;
 use rand::{RngExt, SeedableRng};
 use std::cmp::Ordering;
+use std::sync::mpsc;
 
 /// When the LNS stops on its own.
 #[derive(Debug, Clone, Copy)]
@@ -53,6 +69,8 @@ pub struct LnsOutcome {
     pub iterations: u64,
     /// Epochs completed (and merged).
     pub epochs: u64,
+    /// Epochs whose next plan joined the changes of two or more workers.
+    pub merged: u64,
     pub stopped_by_budget: bool,
 }
 
@@ -95,6 +113,91 @@ pub fn lns(
     on_epoch: &mut dyn FnMut(&State, &ObjectiveKey, u64, bool),
 ) -> LnsOutcome {
     let threads = limits.threads.max(1);
+    if threads == 1 {
+        return run_epochs(ctx, start, seed, limits, budget, on_epoch, &mut |_| {
+            Vec::new()
+        });
+    }
+    // A pool for the whole search: workers 1.. live as long as it, take
+    // one round's start plan at a time and send back their step's plan
+    // tagged with their number; worker 0 is the calling thread.
+    std::thread::scope(|scope| {
+        let (done_tx, done_rx) = mpsc::channel::<(usize, Option<Worker>)>();
+        let mut jobs = Vec::with_capacity(threads - 1);
+        for w in 1..threads {
+            let (tx, rx) = mpsc::channel::<Job>();
+            jobs.push(tx);
+            let done_tx = done_tx.clone();
+            scope.spawn(move || helper(ctx, seed, w, budget, &rx, &done_tx));
+        }
+        drop(done_tx);
+        run_epochs(ctx, start, seed, limits, budget, on_epoch, &mut |job| {
+            let mut out: Vec<Option<Worker>> = (1..threads).map(|_| None).collect();
+            let sent: Vec<bool> = jobs.iter().map(|tx| tx.send(job.clone()).is_ok()).collect();
+            let mut waiting = sent.iter().filter(|&&x| x).count();
+            while waiting > 0 {
+                // A worker gone (it panicked) counts as cut short.
+                let Ok((w, r)) = done_rx.recv() else { break };
+                out[w - 1] = r;
+                waiting -= 1;
+            }
+            out
+        })
+        // `jobs` drops here: the workers' channels close and they end.
+    })
+}
+
+/// One round's start, sent to every worker.
+#[derive(Clone)]
+struct Job {
+    epoch: u64,
+    base: State,
+    base_key: ObjectiveKey,
+}
+
+/// A pool worker: one LNS step per job from the job's plan, its generator
+/// seeded by (seed, epoch, worker) at the first job of each epoch.
+fn helper(
+    ctx: &Ctx,
+    seed: u64,
+    worker: usize,
+    budget: &Budget,
+    jobs: &mpsc::Receiver<Job>,
+    done: &mpsc::Sender<(usize, Option<Worker>)>,
+) {
+    let mut rng: Option<(u64, Xoshiro256PlusPlus)> = None;
+    while let Ok(job) = jobs.recv() {
+        if rng.as_ref().is_none_or(|(e, _)| *e != job.epoch) {
+            let s = worker_seed(seed, job.epoch, worker as u64);
+            rng = Some((job.epoch, Xoshiro256PlusPlus::seed_from_u64(s)));
+        }
+        let Some((_, r)) = rng.as_mut() else { break };
+        // A panic is reported as a step cut short, so the caller never
+        // waits for a result that will not come.
+        let out = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+            lns_step(ctx, &job.base, &job.base_key, r, worker, budget)
+        }))
+        .ok()
+        .flatten();
+        if done.send((worker, out)).is_err() {
+            break;
+        }
+    }
+}
+
+/// The epochs, each `epoch_steps(e)` rounds; in a round every worker does
+/// one LNS step from the round's start (worker 0 here, the others through
+/// `others`, which returns their results in worker order) and [`merge`]
+/// makes the next round's start.
+fn run_epochs(
+    ctx: &Ctx,
+    start: State,
+    seed: u64,
+    limits: &LnsLimits,
+    budget: &Budget,
+    on_epoch: &mut dyn FnMut(&State, &ObjectiveKey, u64, bool),
+    others: &mut dyn FnMut(&Job) -> Vec<Option<Worker>>,
+) -> LnsOutcome {
     let mut cur = State::new(ctx, &start.placement());
     let mut cur_key = cur.key(ctx);
     let mut best = cur.clone();
@@ -102,64 +205,45 @@ pub fn lns(
     let mut iterations = 0u64;
     let mut stale = 0u64;
     let mut epoch = 0u64;
-    let stopped_by_budget = loop {
+    let mut merged = 0u64;
+    let stopped_by_budget = 'epochs: loop {
         if stale >= limits.stale_epochs || epoch >= limits.max_epochs {
             break false;
         }
         if budget.exhausted() || ctx.movable.is_empty() {
             break budget.exhausted();
         }
-        let steps = epoch_steps(epoch);
-        let results: Vec<Option<Worker>> = if threads == 1 {
-            vec![run_worker(
-                ctx,
-                &cur,
-                &cur_key,
-                worker_seed(seed, epoch, 0),
-                steps,
-                budget,
-            )]
-        } else {
-            std::thread::scope(|scope| {
-                let handles: Vec<_> = (0..threads as u64)
-                    .map(|w| {
-                        let (cur, cur_key) = (&cur, &cur_key);
-                        scope.spawn(move || {
-                            run_worker(
-                                ctx,
-                                cur,
-                                cur_key,
-                                worker_seed(seed, epoch, w),
-                                steps,
-                                budget,
-                            )
-                        })
-                    })
-                    .collect();
-                // A worker that panicked counts as one cut short.
-                handles
-                    .into_iter()
-                    .map(|h| h.join().ok().flatten())
-                    .collect()
-            })
-        };
-        if results.iter().any(Option::is_none) {
-            // Cut short by the budget or the cancel flag: dropped whole.
-            break true;
-        }
-        let mut next: Option<Worker> = None;
-        for r in results.into_iter().flatten() {
-            iterations += r.iterations;
-            if next.as_ref().is_none_or(|n| r.key.better_than(&n.key)) {
-                next = Some(r);
+        let mut rng = Xoshiro256PlusPlus::seed_from_u64(worker_seed(seed, epoch, 0));
+        let (mut e_cur, mut e_key) = (cur.clone(), cur_key.clone());
+        let (mut e_iterations, mut e_merged) = (0u64, 0u64);
+        for _ in 0..epoch_steps(epoch) {
+            let job = Job {
+                epoch,
+                base: e_cur,
+                base_key: e_key,
+            };
+            let rest = others(&job);
+            let mine = lns_step(ctx, &job.base, &job.base_key, &mut rng, 0, budget);
+            let results: Vec<Option<Worker>> = std::iter::once(mine).chain(rest).collect();
+            if results.iter().any(Option::is_none) {
+                // Cut short by the budget or the cancel flag: the epoch is
+                // dropped whole.
+                break 'epochs true;
             }
+            let workers: Vec<Worker> = results.into_iter().flatten().collect();
+            e_iterations += workers.iter().map(|r| r.iterations).sum::<u64>();
+            let Some(next) = merge(ctx, &job.base, workers) else {
+                break 'epochs false;
+            };
+            e_merged += u64::from(next.grafted);
+            e_cur = next.state;
+            e_key = next.key;
         }
         epoch += 1;
-        let Some(next) = next else {
-            break false;
-        };
-        cur = next.state;
-        cur_key = next.key;
+        iterations += e_iterations;
+        merged += e_merged;
+        cur = e_cur;
+        cur_key = e_key;
         let improved = cur_key.better_than(&best_key);
         if improved {
             best = cur.clone();
@@ -175,6 +259,7 @@ pub fn lns(
         best_key,
         iterations,
         epochs: epoch,
+        merged,
         stopped_by_budget,
     }
 }
@@ -185,57 +270,149 @@ struct Worker {
     iterations: u64,
 }
 
-/// One worker's share of an epoch: `steps` LNS steps from `start`. `None`
-/// when the budget ended first.
-fn run_worker(
+/// An epoch's next plan.
+struct Next {
+    state: State,
+    key: ObjectiveKey,
+    /// It joins the changes of two or more workers.
+    grafted: bool,
+}
+
+/// The epoch's next plan from the workers' plans, in worker order: the best
+/// key (the lowest worker on ties), then each other worker that improved on
+/// `base` grafted on when its changes touch units and tasks that none of
+/// the plan's changes touch, the reserve stays at its minimum, and the key
+/// gets better. Raising the bottleneck and, in another worker, the next
+/// worst task are then both kept: the second worker's work is not lost.
+fn merge(ctx: &Ctx, base: &State, workers: Vec<Worker>) -> Option<Next> {
+    let inc = ctx.inc;
+    let base_key = base.key(ctx);
+    let lead = (0..workers.len()).fold(None, |b: Option<usize>, i| match b {
+        Some(j) if !workers[i].key.better_than(&workers[j].key) => Some(j),
+        _ => Some(i),
+    })?;
+    let diff = |s: &State| -> Vec<UnitIdx> {
+        ctx.movable
+            .iter()
+            .copied()
+            .filter(|&u| s.place[u] != base.place[u])
+            .collect()
+    };
+    let mut unit_used = vec![false; inc.units.len()];
+    let mut task_used = vec![false; inc.tasks.len()];
+    let mark = |d: &[UnitIdx], s: &State, unit_used: &mut [bool], task_used: &mut [bool]| {
+        for &u in d {
+            unit_used[u.index()] = true;
+            for t in [s.place[u], base.place[u]].into_iter().flatten() {
+                task_used[t.index()] = true;
+            }
+        }
+    };
+    let mut next = Next {
+        state: workers[lead].state.clone(),
+        key: workers[lead].key.clone(),
+        grafted: false,
+    };
+    if !next.key.better_than(&base_key) {
+        return Some(next);
+    }
+    mark(
+        &diff(&next.state),
+        &next.state,
+        &mut unit_used,
+        &mut task_used,
+    );
+    for (i, w) in workers.iter().enumerate() {
+        if i == lead || !w.key.better_than(&base_key) {
+            continue;
+        }
+        let d = diff(&w.state);
+        let clash = d.iter().any(|&u| {
+            unit_used[u.index()]
+                || [w.state.place[u], base.place[u]]
+                    .into_iter()
+                    .flatten()
+                    .any(|t| task_used[t.index()])
+        });
+        if clash {
+            continue;
+        }
+        let mut p = next.state.placement();
+        for &u in &d {
+            p.0[u.index()] = w.state.place[u];
+        }
+        // Task counts: each touched task is as in one feasible plan.
+        let cand = State::new(ctx, &p);
+        if cand.reserve < next.state.reserve.min(w.state.reserve)
+            && rules::reserve_short(inc, cand.reserve as usize)
+        {
+            continue;
+        }
+        let k = cand.key(ctx);
+        if k.better_than(&next.key) {
+            mark(&d, &w.state, &mut unit_used, &mut task_used);
+            next = Next {
+                state: cand,
+                key: k,
+                grafted: true,
+            };
+        }
+    }
+    Some(next)
+}
+
+/// One LNS step from `start`: the step's plan when its key is not worse,
+/// else `start` again. `None` when the budget ended first.
+fn lns_step(
     ctx: &Ctx,
     start: &State,
     start_key: &ObjectiveKey,
-    seed: u64,
-    steps: u64,
+    rng: &mut Xoshiro256PlusPlus,
+    worker: usize,
     budget: &Budget,
 ) -> Option<Worker> {
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
-    let mut cur = start.clone();
-    let mut cur_key = start_key.clone();
     let mut iterations = 0u64;
-    for _ in 0..steps {
-        let mut s = cur.clone();
-        release(ctx, &mut s, &mut rng);
-        // Any part cut by the budget makes the step (and the epoch)
-        // depend on the clock: drop it.
-        if !refill(ctx, &mut s, &mut rng, &mut iterations, budget)
-            || !descend(ctx, &mut s, &mut iterations, budget)
-            || budget.exhausted()
-        {
-            return None;
-        }
-        // Fresh sums, so rounding never piles up across steps.
-        let s = State::new(ctx, &s.placement());
-        let k = s.key(ctx);
-        if k.compare(&cur_key) != Ordering::Less {
-            cur = s;
-            cur_key = k;
-        }
+    let mut s = start.clone();
+    release(ctx, &mut s, worker, rng);
+    // Any part cut by the budget makes the step (and the epoch) depend on
+    // the clock: drop it.
+    if !refill(ctx, &mut s, rng, &mut iterations, budget)
+        || !descend(ctx, &mut s, &mut iterations, budget)
+        || budget.exhausted()
+    {
+        return None;
     }
-    Some(Worker {
-        state: cur,
-        key: cur_key,
-        iterations,
+    // Fresh sums, so rounding never piles up across steps.
+    let s = State::new(ctx, &s.placement());
+    let k = s.key(ctx);
+    Some(if k.compare(start_key) != Ordering::Less {
+        Worker {
+            state: s,
+            key: k,
+            iterations,
+        }
+    } else {
+        Worker {
+            state: start.clone(),
+            key: start_key.clone(),
+            iterations,
+        }
     })
 }
 
 /// Sends the units of a bottleneck task, and those of a few tasks holding
 /// units it accepts, to reserve.
-fn release(ctx: &Ctx, s: &mut State, rng: &mut Xoshiro256PlusPlus) {
+fn release(ctx: &Ctx, s: &mut State, worker: usize, rng: &mut Xoshiro256PlusPlus) {
     let inc = ctx.inc;
     let order = s.bottlenecks(ctx);
     if order.is_empty() {
         return;
     }
     let top = order.len().min(4);
+    // Worker w favours the w-th worst task, so that two workers tend to
+    // raise different tasks and [`merge`] can keep both.
     let f = if rng.random_bool(0.5) {
-        order[0]
+        order[worker % top]
     } else {
         order[rng.random_range(0..top)]
     };
