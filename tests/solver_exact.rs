@@ -22,7 +22,7 @@ use std::sync::atomic::AtomicBool;
 use std::time::Duration;
 
 mod small_incidents;
-use small_incidents::{all_plans, key_of, small_incident};
+use small_incidents::{all_plans, key_of, small_distinct_incident, small_incident};
 
 fn options(from_scratch: bool) -> SolveOptions {
     SolveOptions {
@@ -33,9 +33,22 @@ fn options(from_scratch: bool) -> SolveOptions {
 }
 
 fn check_seed(seed: u64) -> Result<(), TestCaseError> {
-    let Some(inc) = small_incident(seed) else {
-        return Ok(());
-    };
+    match small_incident(seed) {
+        Some(inc) => check_incident(&inc, seed),
+        None => Ok(()),
+    }
+}
+
+/// The same checks with no two units alike (the proof gets no help from
+/// the symmetry rule).
+fn check_distinct_seed(seed: u64) -> Result<(), TestCaseError> {
+    match small_distinct_incident(seed) {
+        Some(inc) => check_incident(&inc, seed),
+        None => Ok(()),
+    }
+}
+
+fn check_incident(inc: &Incident, seed: u64) -> Result<(), TestCaseError> {
     let plans = all_plans(&inc);
     prop_assume!(!plans.is_empty());
     let keys: Vec<ObjectiveKey> = plans.iter().map(|p| key_of(&inc, p)).collect();
@@ -262,6 +275,20 @@ proptest! {
     #[test]
     fn exact_and_stable_match_brute_force(seed in any::<u64>()) {
         check_seed(seed)?;
+    }
+
+    #[test]
+    fn distinct_units_proof_matches_brute_force(seed in any::<u64>()) {
+        check_distinct_seed(seed)?;
+    }
+}
+
+#[test]
+fn fixed_seeds_distinct_units_match_brute_force() {
+    for seed in 0..40 {
+        if let Err(e) = check_distinct_seed(seed) {
+            panic!("{e}");
+        }
     }
 }
 
