@@ -23,7 +23,9 @@
 //!
 //! Cover cut: the bounds above let every task count on every free unit at
 //! once. Where each task of a tier must reach a level (the first entry of
-//! a better key than the incumbent's, or a tier's first threshold), each of
+//! a better key than the incumbent's, the cap of a tier the incumbent holds
+//! at its cap throughout and the next tier's worst entry, or a tier's first
+//! threshold), each of
 //! its traits needs z ≥ Φ⁻¹(level) (the other factors are at most 1), so on
 //! the hedge side at least need + z·√(variance now) − mean now more mean
 //! (the variance only grows as units join). Each free unit joins one task:
@@ -86,9 +88,8 @@ struct Search<'c, 'a> {
     /// ln level every task of a tier must reach from the thresholds (the
     /// tier's first entry), per tier.
     tier_floor: [Option<f64>; 3],
-    /// The first tier with a counted task (its worst task is the key's first
-    /// entry).
-    first_tier: Option<usize>,
+    /// Counted tasks per tier (the key's capped entries, tier by tier).
+    tier_len: [usize; 3],
     /// (ln level, lower bound on Φ⁻¹(e^level)): the last level inverted.
     z_memo: (f64, f64),
     /// Per trait: shortfall summed over the tasks, and the tasks short.
@@ -166,15 +167,42 @@ impl Search<'_, '_> {
         !ub_key.better_than(&best.key)
     }
 
+    /// Per tier, the ln level each of its tasks must reach in a plan whose
+    /// key beats the incumbent's ([`Goal::Key`]): the first tier's worst
+    /// entry; and while a tier is at its cap throughout (no plan can exceed
+    /// it there, so a better plan ties it), the cap for that tier and the
+    /// next tier's worst entry. A capped entry at least a level means the
+    /// odds are too.
+    fn levels_to_beat(&self) -> [Option<f64>; 3] {
+        let mut beat = [None; 3];
+        let (Goal::Key, Some(b)) = (&self.goal, &self.best) else {
+            return beat;
+        };
+        let capped = b.key.capped();
+        if capped.len() != self.tier_len.iter().sum::<usize>() {
+            return beat;
+        }
+        // Held or focused keys rank by other caps: the first entry only.
+        let plain = self.ctx.floors.is_empty() && !self.ctx.focus;
+        let mut at = 0;
+        for (tier, &len) in self.tier_len.iter().enumerate() {
+            if len == 0 {
+                continue;
+            }
+            beat[tier] = Some(capped[at]);
+            let cap = self.ctx.caps[tier];
+            if !(plain && capped[at..at + len].iter().all(|&e| e == cap)) {
+                break;
+            }
+            at += len;
+        }
+        beat
+    }
+
     /// The cover cut of the module docs.
     fn cover_prunes(&mut self, state: &State) -> bool {
         let inc = self.ctx.inc;
-        // A better key than the incumbent's has its first entry at least the
-        // incumbent's (a capped entry below an odds means the odds too).
-        let beat = match (&self.goal, &self.best) {
-            (Goal::Key, Some(b)) if b.key.capped_len() > 0 => Some(b.key.capped()[0]),
-            _ => None,
-        };
+        let beat = self.levels_to_beat();
         let half = 0.5f64.ln();
         for s in &mut self.short {
             s.0 = 0.0;
@@ -186,8 +214,7 @@ impl Search<'_, '_> {
                 continue;
             }
             let tier = inc.tasks[t].tier.index();
-            let from_beat = beat.filter(|_| self.first_tier == Some(tier));
-            let Some(level) = [self.tier_floor[tier], from_beat]
+            let Some(level) = [self.tier_floor[tier], beat[tier]]
                 .into_iter()
                 .flatten()
                 .reduce(f64::max)
@@ -480,7 +507,6 @@ pub fn branch_and_bound(
         }
         start_entry += tier_len[tier];
     }
-    let first_tier = (0..3).find(|&i| tier_len[i] > 0);
     let mut search = Search {
         ctx,
         goal,
@@ -499,7 +525,7 @@ pub fn branch_and_bound(
         buf: Vec::new(),
         ub: vec![0.0; inc.tasks.len()],
         tier_floor,
-        first_tier,
+        tier_len,
         z_memo: (f64::NAN, 0.0),
         short: vec![(0.0, Vec::new()); n_traits],
         cover_buf: vec![0.0; n_traits],
