@@ -90,8 +90,9 @@ struct Search<'c, 'a> {
     tier_floor: [Option<f64>; 3],
     /// Counted tasks per tier (the key's capped entries, tier by tier).
     tier_len: [usize; 3],
-    /// (ln level, lower bound on Φ⁻¹(e^level)): the last level inverted.
-    z_memo: (f64, f64),
+    /// Per tier, (ln level, lower bound on Φ⁻¹(e^level)): the last level
+    /// inverted (one slot per tier so that tiers do not evict each other).
+    z_memo: [(f64, f64); 3],
     /// Per trait: shortfall summed over the tasks, and the tasks short.
     short: Vec<(f64, Vec<TaskIdx>)>,
     /// Per trait, the free units' mean that may go to a short task (scratch).
@@ -226,10 +227,10 @@ impl Search<'_, '_> {
             if level.is_nan() || level <= half {
                 continue;
             }
-            if self.z_memo.0 != level {
-                self.z_memo = (level, z_for_level(level));
+            if self.z_memo[tier].0 != level {
+                self.z_memo[tier] = (level, z_for_level(level));
             }
-            let z = self.z_memo.1;
+            let z = self.z_memo[tier].1;
             let tally = &state.tallies[t];
             for (k, need) in inc.tasks[t].needs.iter().enumerate() {
                 if !need.counts() {
@@ -526,7 +527,7 @@ pub fn branch_and_bound(
         ub: vec![0.0; inc.tasks.len()],
         tier_floor,
         tier_len,
-        z_memo: (f64::NAN, 0.0),
+        z_memo: [(f64::NAN, 0.0); 3],
         short: vec![(0.0, Vec::new()); n_traits],
         cover_buf: vec![0.0; n_traits],
     };
