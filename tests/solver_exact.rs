@@ -15,14 +15,17 @@
 //! least the true optimum.
 
 use oddsboard::model::{Incident, Placement};
-use oddsboard::solver::{ObjectiveKey, SolveOptions, solve};
+use oddsboard::solver::exact::{Goal, Incumbent, branch_and_bound};
+use oddsboard::solver::search::{Ctx, State};
+use oddsboard::solver::stable::Disruption;
+use oddsboard::solver::{Budget, ObjectiveKey, SolveOptions, solve};
 use proptest::prelude::*;
 use std::cmp::Ordering;
 use std::sync::atomic::AtomicBool;
 use std::time::Duration;
 
 mod small_incidents;
-use small_incidents::{all_plans, key_of, small_incident};
+use small_incidents::{all_plans, key_of, small_distinct_incident, small_incident};
 
 fn options(from_scratch: bool) -> SolveOptions {
     SolveOptions {
@@ -33,12 +36,25 @@ fn options(from_scratch: bool) -> SolveOptions {
 }
 
 fn check_seed(seed: u64) -> Result<(), TestCaseError> {
-    let Some(inc) = small_incident(seed) else {
-        return Ok(());
-    };
-    let plans = all_plans(&inc);
+    match small_incident(seed) {
+        Some(inc) => check_incident(&inc, seed),
+        None => Ok(()),
+    }
+}
+
+/// The same checks with no two units alike (the proof gets no help from
+/// the symmetry rule).
+fn check_distinct_seed(seed: u64) -> Result<(), TestCaseError> {
+    match small_distinct_incident(seed) {
+        Some(inc) => check_incident(&inc, seed),
+        None => Ok(()),
+    }
+}
+
+fn check_incident(inc: &Incident, seed: u64) -> Result<(), TestCaseError> {
+    let plans = all_plans(inc);
     prop_assume!(!plans.is_empty());
-    let keys: Vec<ObjectiveKey> = plans.iter().map(|p| key_of(&inc, p)).collect();
+    let keys: Vec<ObjectiveKey> = plans.iter().map(|p| key_of(inc, p)).collect();
     let best = keys
         .iter()
         .fold(None::<&ObjectiveKey>, |b, k| match b {
@@ -50,7 +66,7 @@ fn check_seed(seed: u64) -> Result<(), TestCaseError> {
 
     // From scratch with slack 0: the exact best key.
     let r = solve(
-        &inc,
+        inc,
         &SolveOptions {
             slack: 0.0,
             ..options(true)
@@ -62,7 +78,7 @@ fn check_seed(seed: u64) -> Result<(), TestCaseError> {
     prop_assert!(r.proven_optimal, "seed {seed}: not proven");
     prop_assert!(plans.contains(&r.placement), "seed {seed}: infeasible plan");
     prop_assert_eq!(
-        key_of(&inc, &r.placement).compare(best),
+        key_of(inc, &r.placement).compare(best),
         Ordering::Equal,
         "seed {}: key {:?} vs best {:?}",
         seed,
@@ -81,9 +97,77 @@ fn check_seed(seed: u64) -> Result<(), TestCaseError> {
     // The rule (SPEC §3 Stability), by enumeration: thresholds entry by
     // entry over the capped key, then the least disruption, then the key.
     for slack in [0.01f64, 0.0] {
-        check_rule(&inc, &plans, &keys, best, slack, seed)?;
+        check_rule(inc, &plans, &keys, best, slack, seed)?;
     }
     Ok(())
+}
+
+/// The exact search started from a poor incumbent (the plan the brute force
+/// ranks last, and one from the middle) must still reach the brute-force
+/// best: none of its cuts (task bounds, the cover cut with the levels a
+/// better key needs tier by tier) may remove the best plan. From the solver's
+/// own incumbent most cuts never face a plan to find.
+fn check_from_poor_incumbent(inc: &Incident, seed: u64) -> Result<(), TestCaseError> {
+    let plans = all_plans(inc);
+    if plans.is_empty() {
+        return Ok(());
+    }
+    let keys: Vec<ObjectiveKey> = plans.iter().map(|p| key_of(inc, p)).collect();
+    let (mut best, mut worst) = (0, 0);
+    for (i, k) in keys.iter().enumerate() {
+        if k.better_than(&keys[best]) {
+            best = i;
+        }
+        if keys[worst].better_than(k) {
+            worst = i;
+        }
+    }
+    let ctx = Ctx::new(inc);
+    for pick in [worst, plans.len() / 2] {
+        let state = State::new(&ctx, &plans[pick]);
+        let key = state.key(&ctx);
+        let cancel = AtomicBool::new(false);
+        let budget = Budget::new(Duration::from_secs(20), &cancel);
+        let out = branch_and_bound(
+            &ctx,
+            Goal::Key,
+            &[],
+            Some(Incumbent {
+                state,
+                key,
+                cost: Disruption::default(),
+            }),
+            &budget,
+            u64::MAX,
+            &mut |_, _| {},
+        );
+        prop_assert!(out.complete, "seed {seed}: search not complete");
+        let found = out.best.expect("the incumbent at least");
+        prop_assert_eq!(
+            key_of(inc, &found.state.placement()).compare(&keys[best]),
+            Ordering::Equal,
+            "seed {}: from plan {} found {:?}, best {:?}",
+            seed,
+            pick,
+            found.key.entries(),
+            keys[best].entries()
+        );
+    }
+    Ok(())
+}
+
+#[test]
+fn exact_from_poor_incumbent_reaches_brute_force_best() {
+    for seed in 0..150 {
+        for inc in [small_incident(seed), small_distinct_incident(seed)]
+            .into_iter()
+            .flatten()
+        {
+            if let Err(e) = check_from_poor_incumbent(&inc, seed) {
+                panic!("{e}");
+            }
+        }
+    }
 }
 
 /// ln odds `a` at least threshold `t`, with the key's tolerance; −∞ is met
@@ -262,6 +346,20 @@ proptest! {
     #[test]
     fn exact_and_stable_match_brute_force(seed in any::<u64>()) {
         check_seed(seed)?;
+    }
+
+    #[test]
+    fn distinct_units_proof_matches_brute_force(seed in any::<u64>()) {
+        check_distinct_seed(seed)?;
+    }
+}
+
+#[test]
+fn fixed_seeds_distinct_units_match_brute_force() {
+    for seed in 0..40 {
+        if let Err(e) = check_distinct_seed(seed) {
+            panic!("{e}");
+        }
     }
 }
 

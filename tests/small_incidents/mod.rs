@@ -152,6 +152,21 @@ pub fn small_incident(seed: u64) -> Option<Incident> {
     parse_incident_str(&y, "invented.yaml").ok()
 }
 
+/// [`small_incident`] with no two units alike: each unit's means scaled and
+/// shifted by its own amount, so the exact search's symmetry rule merges
+/// nothing and the proof must search every branch itself.
+#[allow(dead_code)] // used by the exact-solver tests only
+pub fn small_distinct_incident(seed: u64) -> Option<Incident> {
+    let mut inc = small_incident(seed)?;
+    for (i, u) in inc.units.iter_mut().enumerate() {
+        let f = (i + 1) as f64;
+        for r in &mut u.ratings {
+            r.mean = r.mean * (1.0 + 0.01 * f) + 0.05 * f;
+        }
+    }
+    Some(inc)
+}
+
 /// Every feasible placement: pinned units on their pins, out-of-service
 /// units in reserve, every other unit in reserve or on an open task that
 /// accepts it, no task over its maximum, at least `reserve_min` available

@@ -20,6 +20,17 @@
 //! the better key. A node is cut when the sorted bounds of its tasks miss a
 //! threshold: the key is monotone in every task's odds, so no completion
 //! can meet it.
+//!
+//! Cover cut: the bounds above let every task count on every free unit at
+//! once. Where each task of a tier must reach a level (the first entry of
+//! a better key than the incumbent's, the cap of a tier the incumbent holds
+//! at its cap throughout and the next tier's worst entry, or a tier's first
+//! threshold), each of
+//! its traits needs z ≥ Φ⁻¹(level) (the other factors are at most 1), so on
+//! the hedge side at least need + z·√(variance now) − mean now more mean
+//! (the variance only grows as units join). Each free unit joins one task:
+//! when a trait's shortfalls over those tasks exceed the mean of the free
+//! units that may join any of them, no completion reaches the levels.
 
 use super::Budget;
 use super::bound::{ratio_orders, task_ln_upper_bound};
@@ -27,6 +38,7 @@ use super::key::{ObjectiveKey, cmp_ln, counts};
 use super::search::{Ctx, State};
 use super::stable::{Disruption, unit_disruption};
 use crate::model::{Placement, TaskIdx, UnitIdx};
+use crate::odds::ln_phi;
 use std::collections::HashMap;
 
 /// What the search optimises.
@@ -73,6 +85,33 @@ struct Search<'c, 'a> {
     aborted: bool,
     buf: Vec<(f64, f64)>,
     ub: Vec<f64>,
+    /// ln level every task of a tier must reach from the thresholds (the
+    /// tier's first entry), per tier.
+    tier_floor: [Option<f64>; 3],
+    /// Counted tasks per tier (the key's capped entries, tier by tier).
+    tier_len: [usize; 3],
+    /// Per tier, (ln level, lower bound on Φ⁻¹(e^level)): the last level
+    /// inverted (one slot per tier so that tiers do not evict each other).
+    z_memo: [(f64, f64); 3],
+    /// Per trait: shortfall summed over the tasks, and the tasks short.
+    short: Vec<(f64, Vec<TaskIdx>)>,
+    /// Per trait, the free units' mean that may go to a short task (scratch).
+    cover_buf: Vec<f64>,
+}
+
+/// Lower bound on z with ln Φ(z) ≥ `level` (bisection keeping ln Φ(lo) below
+/// the level), for `level` above ln ½.
+fn z_for_level(level: f64) -> f64 {
+    let (mut lo, mut hi) = (0.0f64, 40.0f64);
+    for _ in 0..64 {
+        let mid = 0.5 * (lo + hi);
+        if ln_phi(mid) < level {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    (lo - 1e-9).max(0.0)
 }
 
 fn option_index(o: Option<TaskIdx>) -> usize {
@@ -107,6 +146,9 @@ impl Search<'_, '_> {
         if !self.thresholds_met(&self.ub) {
             return true;
         }
+        if self.cover_prunes(state) {
+            return true;
+        }
         let Some(best) = &self.best else {
             return false;
         };
@@ -124,6 +166,107 @@ impl Search<'_, '_> {
         }
         let ub_key = self.ctx.key_of(&self.ub);
         !ub_key.better_than(&best.key)
+    }
+
+    /// Per tier, the ln level each of its tasks must reach in a plan whose
+    /// key beats the incumbent's ([`Goal::Key`]): the first tier's worst
+    /// entry; and while a tier is at its cap throughout (no plan can exceed
+    /// it there, so a better plan ties it), the cap for that tier and the
+    /// next tier's worst entry. A capped entry at least a level means the
+    /// odds are too.
+    fn levels_to_beat(&self) -> [Option<f64>; 3] {
+        let mut beat = [None; 3];
+        let (Goal::Key, Some(b)) = (&self.goal, &self.best) else {
+            return beat;
+        };
+        let capped = b.key.capped();
+        if capped.len() != self.tier_len.iter().sum::<usize>() {
+            return beat;
+        }
+        // Held or focused keys rank by other caps: the first entry only.
+        let plain = self.ctx.floors.is_empty() && !self.ctx.focus;
+        let mut at = 0;
+        for (tier, &len) in self.tier_len.iter().enumerate() {
+            if len == 0 {
+                continue;
+            }
+            beat[tier] = Some(capped[at]);
+            let cap = self.ctx.caps[tier];
+            if !(plain && capped[at..at + len].iter().all(|&e| e == cap)) {
+                break;
+            }
+            at += len;
+        }
+        beat
+    }
+
+    /// The cover cut of the module docs.
+    fn cover_prunes(&mut self, state: &State) -> bool {
+        let inc = self.ctx.inc;
+        let beat = self.levels_to_beat();
+        let half = 0.5f64.ln();
+        for s in &mut self.short {
+            s.0 = 0.0;
+            s.1.clear();
+        }
+        let mut any = false;
+        for t in crate::model::TaskIdx::range(inc.tasks.len()) {
+            if !counts(inc, t) {
+                continue;
+            }
+            let tier = inc.tasks[t].tier.index();
+            let Some(level) = [self.tier_floor[tier], beat[tier]]
+                .into_iter()
+                .flatten()
+                .reduce(f64::max)
+            else {
+                continue;
+            };
+            // Looser than the key's tolerance, so a tie is never cut.
+            let level = level - 1e-8 * level.abs().max(1.0);
+            if level.is_nan() || level <= half {
+                continue;
+            }
+            if self.z_memo[tier].0 != level {
+                self.z_memo[tier] = (level, z_for_level(level));
+            }
+            let z = self.z_memo[tier].1;
+            let tally = &state.tallies[t];
+            for (k, need) in inc.tasks[t].needs.iter().enumerate() {
+                if !need.counts() {
+                    continue;
+                }
+                let sd_now = (tally.unit_var(k) + need.sd * need.sd).sqrt();
+                let gap = need.need + z * sd_now - tally.mean(k);
+                if gap > 1e-9 * need.need.abs().max(1.0) {
+                    if self.ctx.is_full(t, tally.count()) {
+                        return true;
+                    }
+                    self.short[k].0 += gap;
+                    self.short[k].1.push(t);
+                    any = true;
+                }
+            }
+        }
+        if !any {
+            return false;
+        }
+        let supply = &mut self.cover_buf;
+        supply.iter_mut().for_each(|s| *s = 0.0);
+        for &u in &self.order {
+            if !self.free[u] {
+                continue;
+            }
+            for (k, (_, tasks)) in self.short.iter().enumerate() {
+                if tasks.iter().any(|&t| self.ctx.allowed_on[u][t]) {
+                    supply[k] += inc.belief(u, k).mean.max(0.0);
+                }
+            }
+        }
+        self.short
+            .iter()
+            .zip(supply.iter())
+            .any(|((gap, _), s)| *gap > s + 1e-9 * gap.abs().max(1.0))
     }
 
     fn leaf(
@@ -350,6 +493,21 @@ pub fn branch_and_bound(
             .fold(Disruption::default(), |a, b| a + b),
         Goal::Key => Disruption::default(),
     };
+    // Each tier's first threshold binds every task of the tier.
+    let mut tier_floor = [None; 3];
+    let mut tier_len = [0usize; 3];
+    for t in crate::model::TaskIdx::range(inc.tasks.len()) {
+        if counts(inc, t) {
+            tier_len[inc.tasks[t].tier.index()] += 1;
+        }
+    }
+    let mut start_entry = 0;
+    for tier in 0..3 {
+        if tier_len[tier] > 0 {
+            tier_floor[tier] = required.get(start_entry).copied().filter(|r| r.is_finite());
+        }
+        start_entry += tier_len[tier];
+    }
     let mut search = Search {
         ctx,
         goal,
@@ -367,6 +525,11 @@ pub fn branch_and_bound(
         aborted: false,
         buf: Vec::new(),
         ub: vec![0.0; inc.tasks.len()],
+        tier_floor,
+        tier_len,
+        z_memo: [(f64::NAN, 0.0); 3],
+        short: vec![(0.0, Vec::new()); n_traits],
+        cover_buf: vec![0.0; n_traits],
     };
     search.dfs(&mut state, 0, 0, base_cost, budget, on_improve);
     ExactOutcome {
