@@ -469,7 +469,10 @@ pub fn solve(
     stopped_by_budget |= out.stopped_by_budget;
     let chosen = out.state;
 
-    let placement = chosen.placement();
+    let mut placement = chosen.placement();
+    if !options.from_scratch {
+        placement = stable::settle_interchangeable(inc, &inc.placement, &placement);
+    }
     let key = ObjectiveKey::of(inc, &placement);
     let stop = if proven {
         StopReason::Proved

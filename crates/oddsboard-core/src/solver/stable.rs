@@ -602,6 +602,63 @@ pub fn stable_replan(
     }
 }
 
+/// Puts interchangeable units back on their own ground task where the plan
+/// only exchanged them: two units of one type with the same ratings, the
+/// same current estimates and status, neither pinned, are the same to every
+/// task, so the plan's key, reserve and capacities stay exactly as they
+/// are while moves that only swap them vanish. A search cut by its budget
+/// can leave such swaps (two identical sandbag crews exchanging levee and
+/// substation); a commander would never order them.
+pub fn settle_interchangeable(inc: &Incident, ground: &Placement, plan: &Placement) -> Placement {
+    use std::collections::BTreeMap;
+    let n_traits = inc.traits.len();
+    // Class key: type, status, and every trait's rating and estimate (bits).
+    let mut classes: BTreeMap<Vec<u64>, Vec<UnitIdx>> = BTreeMap::new();
+    for u in UnitIdx::range(inc.units.len()) {
+        let unit = &inc.units[u];
+        if unit.is_lost() || inc.pins.contains_key(&u) {
+            continue;
+        }
+        let mut key = vec![unit.type_idx as u64, unit.status as u64];
+        for k in 0..n_traits {
+            let r = unit.ratings[k];
+            let b = inc.belief(u, k);
+            key.extend([r.mean, r.sd, b.mean, b.load, b.own].map(f64::to_bits));
+        }
+        classes.entry(key).or_default().push(u);
+    }
+    let mut out = plan.clone();
+    for units in classes.values().filter(|c| c.len() > 1) {
+        let mut left: Vec<Option<TaskIdx>> = units.iter().map(|&u| plan.get(u)).collect();
+        let mut given: Vec<Option<Option<TaskIdx>>> = vec![None; units.len()];
+        // Each unit first keeps its ground place when the plan still has a
+        // place of its class there.
+        for (i, &u) in units.iter().enumerate() {
+            if let Some(j) = left.iter().position(|&t| t == ground.get(u)) {
+                given[i] = Some(left.swap_remove(j));
+            }
+        }
+        // The rest take the remaining places, those the plan gave them first.
+        for (i, &u) in units.iter().enumerate() {
+            if given[i].is_none() {
+                let j = left.iter().position(|&t| t == plan.get(u)).unwrap_or(0);
+                given[i] = Some(left.swap_remove(j));
+            }
+        }
+        let ok = units.iter().zip(&given).all(|(&u, g)| match g {
+            Some(Some(t)) => crate::rules::plan_may_put(inc, u, *t),
+            Some(None) => true,
+            None => false,
+        });
+        if ok {
+            for (&u, g) in units.iter().zip(&given) {
+                out.set(u, g.flatten());
+            }
+        }
+    }
+    out
+}
+
 /// How a plan compares with the recommendation, entry by entry over the
 /// capped key within the slack: the first entry where one is lower than
 /// the other by more than the slack decides.
@@ -699,5 +756,37 @@ tasks:
         // Only B meets both life thresholds: its stabilization sets the last.
         assert!(close(thr[2], 0.20f64.ln() + 0.99f64.ln()));
         assert!(b.meets(&thr) && !a.meets(&thr) && !c.meets(&thr));
+    }
+
+    /// Two identical sandbag crews (river-flood sample, invented) exchanged
+    /// between levee and substation: settled back, the key unchanged; a swap
+    /// of units that differ stays.
+    #[test]
+    fn swaps_of_interchangeable_units_are_settled_back() {
+        let path = concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/../../sample-incidents/river-flood.yaml"
+        );
+        let text = std::fs::read_to_string(path).expect("sample");
+        let inc = crate::model::parse_incident_str(&text, path).expect("loads");
+        let ground = inc.placement.clone();
+        let (s1, s3) = (inc.unit_idx("S1").unwrap(), inc.unit_idx("S3").unwrap());
+        let mut plan = ground.clone();
+        plan.set(s1, ground.get(s3));
+        plan.set(s3, ground.get(s1));
+        assert_ne!(plan, ground);
+        let settled = settle_interchangeable(&inc, &ground, &plan);
+        assert_eq!(settled, ground);
+        let key = |p: &Placement| ObjectiveKey::of(&inc, p);
+        assert_eq!(
+            key(&plan).compare(&key(&settled)),
+            std::cmp::Ordering::Equal
+        );
+        // A pump and a sandbag crew differ: their exchange is the plan's own.
+        let p2 = inc.unit_idx("P2").unwrap();
+        let mut other = ground.clone();
+        other.set(p2, ground.get(s1));
+        other.set(s1, ground.get(p2));
+        assert_eq!(settle_interchangeable(&inc, &ground, &other), other);
     }
 }
