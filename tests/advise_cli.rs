@@ -1,5 +1,7 @@
 //! The `advise` command and `plan --what-if`, driven as a user would.
 
+mod cli_log;
+
 use assert_cmd::Command;
 use predicates::prelude::*;
 use std::io::Write;
@@ -183,33 +185,20 @@ fn what_if_bad_event_exits_1() {
 #[test]
 fn advise_counts_field_readings_in_the_request() {
     let dir = tempfile::tempdir().expect("tempdir");
-    let yaml = dir.path().join("invented.yaml");
-    std::fs::write(
-        &yaml,
+    let (yaml, log) = cli_log::started(
+        dir.path(),
         "incident: { name: Invented reading request drill }\n\
          traits: [ { id: water, unit: L/min } ]\n\
          unit_types: [ { id: engine, rho: 0.5, traits: { water: { mean: 1000, sd: 200 } } } ]\n\
          units: [ { id: E1, type: engine }, { id: E2, type: engine } ]\n\
          tasks: [ { id: RESCUE, tier: life, needs: { water: 3500 } } ]\n\
          placement: { E1: RESCUE, E2: RESCUE }\n",
-    )
-    .expect("write");
-    let log = dir.path().join("invented.log");
-    oddsboard()
-        .args(["start", "--log"])
-        .arg(&log)
-        .arg(&yaml)
-        .assert()
-        .success();
+    );
     for unit in ["E1", "E2"] {
-        oddsboard()
-            .arg("record")
-            .arg(&log)
-            .arg(format!(
-                "{{kind: observed, unit: {unit}, trait: water, value: 1400, sd: 10}}"
-            ))
-            .assert()
-            .success();
+        cli_log::record(
+            &log,
+            &format!("{{kind: observed, unit: {unit}, trait: water, value: 1400, sd: 10}}"),
+        );
     }
     let requested = |file: &std::path::Path| -> u64 {
         let out = oddsboard()

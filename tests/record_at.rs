@@ -1,6 +1,8 @@
 //! `record --at` and `start --at` for recording drills after the fact, and
 //! the bundled drill recorded with them.
 
+mod cli_log;
+
 use assert_cmd::Command;
 use chrono::{DateTime, Utc};
 use std::path::Path;
@@ -230,35 +232,20 @@ fn the_drill_script_makes_the_bundled_log() {
 #[test]
 fn start_from_a_log_carries_its_field_readings() {
     let dir = tempfile::tempdir().expect("tempdir");
-    let yaml = dir.path().join("invented.yaml");
-    std::fs::write(
-        &yaml,
+    let (_, old) = cli_log::started(
+        dir.path(),
         "incident: { name: Invented carried readings }\n\
          traits: [ { id: water, unit: L/min } ]\n\
          unit_types: [ { id: engine, rho: 0.4, traits: { water: { mean: 1000, sd: 200 } } } ]\n\
          units: [ { id: E1, type: engine }, { id: E2, type: engine }, { id: E3, type: engine } ]\n\
          tasks: [ { id: ATTACK, needs: { water: 2500 } } ]\n\
          placement: { E1: ATTACK, E2: ATTACK, E3: ATTACK }\n",
-    )
-    .expect("write");
-    let old = dir.path().join("old.log");
-    oddsboard()
-        .args(["start", "--log"])
-        .arg(&old)
-        .arg(&yaml)
-        .assert()
-        .success();
-    for event in [
+    );
+    cli_log::record(
+        &old,
         "{kind: observed, unit: E1, trait: water, value: 1250, sd: 50}",
-        "{kind: observed, unit: E2, trait: water, value: 900}",
-    ] {
-        oddsboard()
-            .arg("record")
-            .arg(&old)
-            .arg(event)
-            .assert()
-            .success();
-    }
+    );
+    cli_log::record(&old, "{kind: observed, unit: E2, trait: water, value: 900}");
     let odds = |log: &Path| -> serde_json::Value {
         let out = oddsboard()
             .args(["odds", "--json"])
@@ -287,12 +274,7 @@ fn start_from_a_log_carries_its_field_readings() {
     assert_eq!(a["tasks"], b["tasks"]);
 
     // A lost unit's reading: counted, not carried.
-    oddsboard()
-        .arg("record")
-        .arg(&old)
-        .arg("{kind: unit_lost, unit: E1}")
-        .assert()
-        .success();
+    cli_log::record(&old, "{kind: unit_lost, unit: E1}");
     let after = dir.path().join("after.log");
     oddsboard()
         .args(["start", "--log"])

@@ -6,6 +6,8 @@
 //! `placement:` map (serde_yaml, not the program's loader), or, for the
 //! recorded drill, from `odds --json`.
 
+mod cli_log;
+
 use assert_cmd::Command;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -221,30 +223,19 @@ fn labels_are_escaped_in_the_markdown() {
 #[test]
 fn a_field_reading_shows_on_the_sheet_beside_the_rating() {
     let dir = tempfile::tempdir().expect("tempdir");
-    let yaml = dir.path().join("invented.yaml");
-    std::fs::write(
-        &yaml,
+    let (_, log) = cli_log::started(
+        dir.path(),
         "incident: { name: Invented sheet reading test }\n\
          traits: [ { id: water, unit: L/min } ]\n\
          unit_types: [ { id: engine, rho: 0, traits: { water: { mean: 1900, sd: 250 } } } ]\n\
          units: [ { id: E1, type: engine }, { id: E2, type: engine } ]\n\
          tasks: [ { id: ATTACK, needs: { water: 1500 } } ]\n\
          placement: { E1: ATTACK }\n",
-    )
-    .expect("write");
-    let log = dir.path().join("invented.log");
-    oddsboard()
-        .args(["start", "--log"])
-        .arg(&log)
-        .arg(&yaml)
-        .assert()
-        .success();
-    oddsboard()
-        .arg("record")
-        .arg(&log)
-        .arg("{kind: observed, unit: E1, trait: water, value: 1500, sd: 100}")
-        .assert()
-        .success();
+    );
+    cli_log::record(
+        &log,
+        "{kind: observed, unit: E1, trait: water, value: 1500, sd: 100}",
+    );
     let (m0, s0, y, e) = (1900.0_f64, 250.0_f64, 1500.0_f64, 100.0_f64);
     let prec = 1.0 / (s0 * s0) + 1.0 / (e * e);
     let (mean, sd) = ((m0 / (s0 * s0) + y / (e * e)) / prec, prec.powf(-0.5));
