@@ -366,9 +366,10 @@ fn reject_drops_the_proposal_and_late_results_of_it() {
     p.set(inc.unit_idx("E4").unwrap(), inc.task_idx("T1"));
     b.send(AppEvent::SolverProgress {
         generation: b.state.generation - 1,
-        placement: p,
+        placement: Some(p),
         elapsed: Duration::from_millis(1),
         iterations: 1,
+        bound: None,
     });
     assert!(b.state.proposal.is_none());
     assert_matches_log(&b);

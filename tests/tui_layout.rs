@@ -223,9 +223,10 @@ fn states_with_notes() -> Vec<(String, oddsboard::tui::AppState)> {
             &mut s,
             AppEvent::SolverProgress {
                 generation,
-                placement: moved,
+                placement: Some(moved),
                 elapsed: std::time::Duration::from_millis(100),
                 iterations: 10,
+                bound: None,
             },
         );
         assert!(s.proposal.is_some(), "{name}: no proposal");

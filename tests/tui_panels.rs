@@ -59,9 +59,10 @@ fn proposal_pending_while_improving() {
         &mut s,
         AppEvent::SolverProgress {
             generation: 0,
-            placement: better,
+            placement: Some(better),
             elapsed: Duration::from_millis(400),
             iterations: 1200,
+            bound: None,
         },
     );
     assert_eq!(s.proposal.as_ref().map(|p| p.moves.len()), Some(2));
@@ -440,4 +441,98 @@ fn a_move_into_reserve_names_the_reserve_minimum_on_the_board() {
             "reserve_min {reserve_min}: {row}"
         );
     }
+}
+
+/// While improving, the status line shows the search's bound beside the
+/// tier's worst under the best plan so far, and the work done; a report of
+/// work alone leaves the proposal as it was. At a narrow width the work
+/// count gives way first, then the bound.
+#[test]
+fn improving_shows_bound_and_work() {
+    use oddsboard::model::Tier;
+    use oddsboard::solver::relax::TierBound;
+    use oddsboard::tui::panel_status::plan_words;
+    let mut s = state(Mode::Command, drill());
+    let mut better = s.incident.placement.clone();
+    let e4 = s.incident.unit_idx("E4").unwrap();
+    let t3 = s.incident.task_idx("T3").unwrap();
+    better.set(e4, Some(t3));
+    let bound = TierBound {
+        tier: Tier::Stabilization,
+        worst_odds: 0.01,
+        upper_bound: Some(0.93),
+    };
+    update(
+        &mut s,
+        AppEvent::SolverProgress {
+            generation: 0,
+            placement: Some(better),
+            elapsed: Duration::from_millis(400),
+            iterations: 1200,
+            bound: Some(bound.clone()),
+        },
+    );
+    let moved = s.proposal.as_ref().map(|p| p.placement.clone());
+    update(
+        &mut s,
+        AppEvent::SolverProgress {
+            generation: 0,
+            placement: None,
+            elapsed: Duration::from_millis(900),
+            iterations: 23_456,
+            bound: Some(bound),
+        },
+    );
+    assert_eq!(s.proposal.as_ref().map(|p| p.placement.clone()), moved);
+    let words = plan_words(&s, 200);
+    // The tier's worst is read from the proposal, not the stale 1 % the
+    // bound was computed beside.
+    let p = s.proposal.as_ref().unwrap();
+    let t = s.incident.task_idx("T3").unwrap();
+    let stab_worst = oddsboard::odds::text::pct_ln(p.odds[t.index()].ln_odds);
+    assert_eq!(
+        words,
+        format!(
+            "re-plan: improving… worst stabilization {stab_worst}, at most 93.0 % possible · 23 k moves · 0.9 s"
+        )
+    );
+    let narrow = plan_words(&s, 60);
+    assert!(narrow.chars().count() <= 60 || !narrow.contains("possible"));
+    assert!(narrow.ends_with("0.9 s"), "{narrow}");
+    assert!(!narrow.contains("moves"), "{narrow}");
+}
+
+/// Once settled, the bound follows the worst if accepted where the line has
+/// room, and gives way where it has not.
+#[test]
+fn settled_bound_gives_way_on_a_short_line() {
+    use oddsboard::model::Tier;
+    use oddsboard::solver::relax::TierBound;
+    use oddsboard::tui::panel_status::plan_words;
+    let mut s = state(Mode::Command, drill());
+    let placement = s.incident.placement.clone();
+    update(
+        &mut s,
+        AppEvent::SolverFinished {
+            generation: 0,
+            result: Ok(PlanResult {
+                placement,
+                proven_optimal: false,
+                elapsed: Duration::from_millis(5),
+                bound: Some(TierBound {
+                    tier: Tier::Life,
+                    worst_odds: 0.5,
+                    upper_bound: Some(0.75),
+                }),
+            }),
+        },
+    );
+    let wide = plan_words(&s, 200);
+    assert!(
+        wide.ends_with(" · worst life 50.0 %, at most 75.0 % possible"),
+        "{wide}"
+    );
+    let narrow = plan_words(&s, 60);
+    assert!(narrow.starts_with("re-plan: done · "), "{narrow}");
+    assert!(!narrow.contains("possible"), "{narrow}");
 }

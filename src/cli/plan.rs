@@ -538,9 +538,13 @@ fn progress_words(incident: &Incident, p: &crate::solver::Progress) -> String {
         Some(t) => format!("worst {} {}", t.as_str(), pct_or_dash(worst[t.index()])),
         None => format!("every tier secure, worst {}", pct(p.key.min_odds())),
     };
-    let bound = p
-        .upper_bound
-        .map_or_else(String::new, |b| format!(", at most {} possible", pct(b)));
+    // The search's bound is of the first tier short when it was computed;
+    // the search may have lifted that tier since.
+    let bound = match p.bound.and_then(|b| Some((b.tier, b.upper_bound?))) {
+        Some((tier, u)) if short == Some(&tier) => format!(", at most {} possible", pct(u)),
+        Some((tier, u)) => format!(" ({} at most {} possible)", tier.as_str(), pct(u)),
+        None => String::new(),
+    };
     format!(
         "{head}{bound}; {} moves scored, {:.1} s",
         p.iterations,

@@ -53,7 +53,11 @@ pub enum PlanStatus {
     /// Waiting for the first result of the current generation.
     Starting,
     /// A placement has come back and the search goes on.
-    Improving { elapsed: Duration, iterations: u64 },
+    Improving {
+        elapsed: Duration,
+        iterations: u64,
+        bound: Option<crate::solver::relax::TierBound>,
+    },
     /// The search has stopped for this state.
     Settled {
         elapsed: Duration,
@@ -178,12 +182,15 @@ pub enum AppEvent {
     Resize(u16, u16),
     /// Periodic wake-up (replay play, watch poll).
     Tick,
-    /// A better placement found while the re-plan goes on.
+    /// The re-plan's work so far, with a better placement when one was
+    /// found since the last report.
     SolverProgress {
         generation: u64,
-        placement: Placement,
+        placement: Option<Placement>,
         elapsed: Duration,
         iterations: u64,
+        /// How high the first short tier could go, once bounded.
+        bound: Option<crate::solver::relax::TierBound>,
     },
     /// The re-plan for `generation` has stopped.
     SolverFinished {

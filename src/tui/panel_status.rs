@@ -22,11 +22,13 @@ pub fn key_hint(mode: Mode) -> &'static str {
     }
 }
 
-/// What the re-plan is doing, in words. The status line shows it whole up
-/// to 3/5 of its width: the place for the search's progress and its bound
-/// (how far the best plan found may be from the best there is) as the
-/// solver reports them.
-pub fn plan_words(state: &AppState) -> String {
+/// What the re-plan is doing, in words, in at most `max` characters where
+/// it can: while improving, the work done gives way first, then the bound;
+/// once settled, the bound.
+/// The status line shows it whole up to 3/5 of its width: the place for the
+/// search's progress and its bound (how far the best plan found may be from
+/// the best there is) as the solver reports them.
+pub fn plan_words(state: &AppState, max: usize) -> String {
     let worst = |state: &AppState| {
         state
             .proposal
@@ -36,16 +38,46 @@ pub fn plan_words(state: &AppState) -> String {
     match &state.plan_status {
         PlanStatus::Off => String::new(),
         PlanStatus::Starting => "re-plan: starting…".into(),
-        PlanStatus::Improving { elapsed, .. } => match worst(state) {
-            Some(w) => format!(
-                "re-plan: improving… best so far: worst {w} · {:.1} s",
-                elapsed.as_secs_f64()
-            ),
-            None => format!(
-                "re-plan: improving… ground is best so far · {:.1} s",
-                elapsed.as_secs_f64()
-            ),
-        },
+        PlanStatus::Improving {
+            elapsed,
+            iterations,
+            bound,
+        } => {
+            let secs = format!("{:.1} s", elapsed.as_secs_f64());
+            let work = format!("{} moves", count_words(*iterations));
+            // "worst stabilization 80.1 %, at most 94.5 % possible": the
+            // tier's worst under the best plan so far.
+            let gap = bound.as_ref().and_then(|b| {
+                let u = b.upper_bound?;
+                let now = tier_worst(state, b.tier).unwrap_or(b.worst_odds);
+                Some(format!(
+                    "worst {} {}, at most {} possible",
+                    b.tier.as_str(),
+                    pct(now),
+                    pct(u)
+                ))
+            });
+            let head = match (worst(state), &gap) {
+                (_, Some(g)) => format!("re-plan: improving… {g}"),
+                (Some(w), None) => format!("re-plan: improving… best so far: worst {w}"),
+                (None, None) => "re-plan: improving… ground is best so far".to_string(),
+            };
+            let candidates = [
+                format!("{head} · {work} · {secs}"),
+                format!("{head} · {secs}"),
+                match worst(state) {
+                    Some(w) => format!("re-plan: improving… worst {w} · {secs}"),
+                    None => format!("re-plan: improving… ground is best · {secs}"),
+                },
+            ];
+            let last = candidates.len() - 1;
+            candidates
+                .into_iter()
+                .enumerate()
+                .find(|(i, c)| *i == last || c.chars().count() <= max)
+                .map(|(_, c)| c)
+                .unwrap_or_default()
+        }
         PlanStatus::Settled {
             proven_optimal,
             bound,
@@ -70,9 +102,16 @@ pub fn plan_words(state: &AppState) -> String {
                     })
                 })
                 .unwrap_or_default();
-            match worst(state) {
-                Some(w) => format!("re-plan: done{proof} · worst if accepted {w}{gap}"),
-                None => format!("re-plan: done{proof} · no better plan: keep the ground{gap}"),
+            let head = match worst(state) {
+                Some(w) => format!("re-plan: done{proof} · worst if accepted {w}"),
+                None => format!("re-plan: done{proof} · no better plan: keep the ground"),
+            };
+            // The bound gives way when the line is short.
+            let full = format!("{head}{gap}");
+            if full.chars().count() <= max {
+                full
+            } else {
+                head
             }
         }
         PlanStatus::Failed(e) => format!("re-plan failed: {e}"),
@@ -117,7 +156,7 @@ pub fn render_header(state: &AppState, frame: &mut Frame, area: Rect) {
 
 pub fn render_status(state: &AppState, frame: &mut Frame, area: Rect) {
     let th = &state.theme;
-    let plan = plan_words(state);
+    let plan = plan_words(state, (area.width * 3 / 5).saturating_sub(2) as usize);
     // What the re-plan is doing is shown whole (up to 3/5 of the line); the
     // key hint gives way, `?` lists every key.
     let plan_w = (plan.chars().count() as u16 + 2).min(area.width * 3 / 5);
@@ -144,4 +183,27 @@ pub fn render_status(state: &AppState, frame: &mut Frame, area: Rect) {
 
 fn left_width(area: Rect, plan_w: u16) -> usize {
     area.width.saturating_sub(plan_w) as usize
+}
+
+/// The worst odds among `tier`'s open tasks with a need under the proposal
+/// (the tasks a tier bound speaks of), if any.
+fn tier_worst(state: &AppState, tier: crate::model::Tier) -> Option<f64> {
+    let p = state.proposal.as_ref()?;
+    p.odds
+        .iter()
+        .filter(|o| {
+            let t = &state.incident.tasks[o.task_idx];
+            t.is_open() && t.tier == tier && t.needs.iter().any(|n| n.counts())
+        })
+        .map(|o| o.ln_odds.exp())
+        .min_by(f64::total_cmp)
+}
+
+/// A count of moves for a status line: "870", "9999", "870 k", "3.4 M".
+fn count_words(n: u64) -> String {
+    match n {
+        0..10_000 => n.to_string(),
+        10_000..1_000_000 => format!("{} k", n / 1000),
+        _ => format!("{:.1} M", n as f64 / 1e6),
+    }
 }

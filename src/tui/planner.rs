@@ -8,21 +8,38 @@ use std::sync::atomic::AtomicBool;
 use std::time::Duration;
 
 use crate::model::{Incident, Placement};
+use crate::solver::relax::TierBound;
 
 use super::app::PlanResult;
+
+/// What a re-plan reports while it goes.
+#[derive(Debug, Clone, Copy)]
+pub struct PlanProgress<'a> {
+    /// A better placement, when one was found since the last report.
+    pub placement: Option<&'a Placement>,
+    pub elapsed: Duration,
+    /// Candidate moves scored (plus exact-search nodes) so far.
+    pub iterations: u64,
+    /// How high the first short tier's worst odds could go, once the search
+    /// has bounded it.
+    pub bound: Option<&'a TierBound>,
+}
 
 /// Something that recommends a placement for an incident.
 pub trait Planner: Send + Sync + 'static {
     /// Plans from the placement on the ground. Calls `progress` with each
-    /// better placement found (placement, elapsed, iterations). Must return
-    /// soon after `cancel` is raised.
+    /// better placement found, and now and then with the work done so far.
+    /// Must return soon after `cancel` is raised.
     fn plan(
         &self,
         incident: &Incident,
         cancel: &AtomicBool,
-        progress: &mut dyn FnMut(&Placement, Duration, u64),
+        progress: &mut dyn FnMut(&PlanProgress),
     ) -> Result<PlanResult, String>;
 }
+
+/// How often a re-plan reports its work when no better plan turns up.
+pub const WORK_REPORT_EVERY: Duration = Duration::from_millis(250);
 
 /// A shared planner.
 pub type SharedPlanner = Arc<dyn Planner>;
@@ -52,13 +69,25 @@ impl Planner for SolverPlanner {
         &self,
         incident: &Incident,
         cancel: &AtomicBool,
-        progress: &mut dyn FnMut(&Placement, Duration, u64),
+        progress: &mut dyn FnMut(&PlanProgress),
     ) -> Result<PlanResult, String> {
-        // Only better placements: epoch-end reports without one would
-        // resend the same placement.
+        // A better placement at once; otherwise the work done (the search
+        // reports every epoch, far more often than a screen needs) at most
+        // every WORK_REPORT_EVERY, and as soon as the bound is known.
+        let mut last: Option<Duration> = None;
+        let mut bound_told = false;
         let mut on_progress = |p: &crate::solver::Progress| {
-            if p.improved {
-                progress(p.placement, p.elapsed, p.iterations);
+            let due = last.is_none_or(|l| p.elapsed >= l + WORK_REPORT_EVERY);
+            let new_bound = p.bound.is_some() && !bound_told;
+            if p.improved || due || new_bound {
+                last = Some(p.elapsed);
+                bound_told |= p.bound.is_some();
+                progress(&PlanProgress {
+                    placement: p.improved.then_some(p.placement),
+                    elapsed: p.elapsed,
+                    iterations: p.iterations,
+                    bound: p.bound,
+                });
             }
         };
         let report = crate::solver::solve(incident, &self.options, cancel, &mut on_progress)

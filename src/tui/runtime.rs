@@ -134,12 +134,13 @@ impl Runtime {
         tokio::task::spawn_blocking(move || {
             let started = Instant::now();
             let progress_tx = tx.clone();
-            let mut progress = |p: &crate::model::Placement, elapsed: Duration, iterations: u64| {
+            let mut progress = |p: &super::planner::PlanProgress| {
                 let _ = progress_tx.send(AppEvent::SolverProgress {
                     generation,
-                    placement: p.clone(),
-                    elapsed,
-                    iterations,
+                    placement: p.placement.cloned(),
+                    elapsed: p.elapsed,
+                    iterations: p.iterations,
+                    bound: p.bound.cloned(),
                 });
             };
             let result = planner.plan(&incident, &cancel, &mut progress);

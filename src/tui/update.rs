@@ -31,12 +31,16 @@ pub fn update(state: &mut AppState, event: AppEvent) -> Vec<Effect> {
             placement,
             elapsed,
             iterations,
+            bound,
         } => {
             if generation == state.generation && state.mode == Mode::Command {
-                state.take_placement(placement);
+                if let Some(p) = placement {
+                    state.take_placement(p);
+                }
                 state.plan_status = PlanStatus::Improving {
                     elapsed,
                     iterations,
+                    bound,
                 };
             }
             Vec::new()

@@ -185,10 +185,11 @@ pub struct Progress<'a> {
     pub elapsed: Duration,
     /// Candidate moves scored plus exact-search nodes so far.
     pub iterations: u64,
-    /// An upper bound on the worst odds known while searching; `None` until
-    /// a bound is computed during the search (the final one is in
-    /// [`SolveReport::upper_bound`]).
-    pub upper_bound: Option<f64>,
+    /// How high the worst odds of the first tier short of its secure level
+    /// could go, computed once while searching (see [`search_bound`]);
+    /// `None` before then, on budgets under a second, or when no tier is
+    /// short.
+    pub bound: Option<&'a relax::TierBound>,
     /// The best plan changed since the last report.
     pub improved: bool,
 }
@@ -294,6 +295,48 @@ fn final_bound(ctx: &Ctx, budget: &Budget) -> Option<f64> {
     (!budget.cancelled() && affordable).then(|| exact::worst_odds_upper_bound(ctx))
 }
 
+/// Budgets from which the search computes a tier bound while it goes.
+const SEARCH_BOUND_MIN_BUDGET: Duration = Duration::from_secs(1);
+
+/// The bound the search reports while it goes: after the first descent,
+/// the tier bound ([`relax::tier_bounds`]) of the first tier short of its
+/// secure level under the plan found so far, in a tenth of the budget (at
+/// most a second). The tiers above that one are at their secure levels, and
+/// every better key keeps them there, so the bound holds for that tier
+/// whatever plan the search moves to; a front end shows it as "at most N %
+/// possible". Skipped on budgets under a second, when no tier is short, and
+/// past [`BOUND_AFTER_BUDGET_MAX`] units × tasks (the relaxation's set-up is
+/// not cut by the clock there).
+fn search_bound(
+    inc: &Incident,
+    placement: &Placement,
+    key: &ObjectiveKey,
+    options: &SolveOptions,
+    budget: &Budget,
+) -> Option<relax::TierBound> {
+    let size = inc.units.len().saturating_mul(inc.tasks.len());
+    if options.budget < SEARCH_BOUND_MIN_BUDGET
+        || size > BOUND_AFTER_BUDGET_MAX
+        || budget.exhausted()
+    {
+        return None;
+    }
+    let caps = key::ln_caps(inc);
+    let secure = key.worst_capped_ln_per_tier();
+    let short = (0..secure.len()).any(|i| secure[i].is_some_and(|v| !key::reaches(v, caps[i])));
+    if !short {
+        return None;
+    }
+    let relax_options = relax::RelaxOptions {
+        time_limit: options.budget.mul_f64(0.1).min(Duration::from_secs(1)),
+        first_short_only: true,
+        ..relax::RelaxOptions::default()
+    };
+    relax::tier_bounds(inc, placement, &relax_options, budget.cancel)
+        .first_short(inc)
+        .cloned()
+}
+
 /// Recommends a placement. See the module docs for the method; the caller
 /// owns the budget (in `options`) and the cancel flag, which is checked
 /// between steps of the search (every few hundred exact-search nodes).
@@ -311,13 +354,14 @@ pub fn solve(
     let exact = ctx.movable.len() <= options.exact_max_units;
 
     let mut iterations = 0u64;
+    let bound_found: std::cell::OnceCell<Option<relax::TierBound>> = std::cell::OnceCell::new();
     let mut report = |s: &State, key: &ObjectiveKey, iterations: u64, improved: bool| {
         on_progress(&Progress {
             placement: &s.placement(),
             key,
             elapsed: budget.elapsed(),
             iterations,
-            upper_bound: None,
+            bound: bound_found.get().and_then(Option::as_ref),
             improved,
         });
     };
@@ -400,6 +444,16 @@ pub fn solve(
     let mut stopped_by_budget = outcome.stopped_by_budget;
     let mut best_state = outcome.best;
     let mut best_key = outcome.best_key;
+    // The bound, once the first descent has ended (or was cut: on a large
+    // incident it can take the search's whole share).
+    if !exact {
+        let b = search_bound(inc, &best_state.placement(), &best_key, options, &budget);
+        let told = b.is_some();
+        let _ = bound_found.set(b);
+        if told {
+            report(&best_state, &best_key, iterations, false);
+        }
+    }
     if !exact && !stopped_by_budget {
         let base = iterations;
         let out = lns::lns(

@@ -95,6 +95,9 @@ pub struct RelaxOptions {
     pub time_limit: Duration,
     /// Bisection steps per tier. Default 14.
     pub steps: u32,
+    /// Bound only the first tier short of its secure level (the others get
+    /// `upper_bound: None`). Default false.
+    pub first_short_only: bool,
 }
 
 impl Default for RelaxOptions {
@@ -102,6 +105,7 @@ impl Default for RelaxOptions {
         RelaxOptions {
             time_limit: Duration::from_millis(1500),
             steps: 14,
+            first_short_only: false,
         }
     }
 }
@@ -718,11 +722,12 @@ pub fn tier_bounds(
         let Some(w) = worst[tier.index()] else {
             continue;
         };
-        if tasks.is_empty() {
+        let skipped = options.first_short_only && short.is_none_or(|s| Tier::ALL[s] != tier);
+        if tasks.is_empty() || skipped {
             out.push(TierBound {
                 tier,
                 worst_odds: w,
-                upper_bound: Some(1.0),
+                upper_bound: (!skipped).then_some(1.0),
             });
             continue;
         }
