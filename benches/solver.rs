@@ -525,13 +525,31 @@ fn key_after_budget() {
     }
 }
 
+/// Seeds of the `replan` section: `ODDSBOARD_REPLAN_SEEDS=a-b` (inclusive),
+/// default 0-9.
+fn replan_seeds() -> std::ops::RangeInclusive<u64> {
+    let v = std::env::var("ODDSBOARD_REPLAN_SEEDS").unwrap_or_default();
+    let mut it = v.split('-').map(|x| x.trim().parse::<u64>());
+    match (it.next(), it.next()) {
+        (Some(Ok(a)), Some(Ok(b))) if a <= b => a..=b,
+        _ => 0..=9,
+    }
+}
+
 fn replan_after_loss() {
-    println!("== re-plan after one loss, 100 x 15 x 4 (10 seeds) ==");
+    let seeds = replan_seeds();
+    println!(
+        "== re-plan after one loss, 100 x 15 x 4 (seeds {}-{}) ==",
+        seeds.start(),
+        seeds.end()
+    );
     let mut first = Vec::new();
     let mut settled = Vec::new();
     let mut settled_slack0 = Vec::new();
-    for seed in 0..10 {
-        let (_, after) = loss_pair(seed);
+    let mut with_ground = Vec::new();
+    let mut absorbed = Vec::new();
+    for seed in seeds {
+        let (before, after) = loss_pair(seed);
         // The rule without threshold searches (slack 0), for the cost of
         // the sequential thresholds.
         let r00 = run(
@@ -582,7 +600,41 @@ fn replan_after_loss() {
         );
         // The settled key in full (ln, capped entries), to compare runs.
         println!("  seed {seed}: settled capped key {:?}", r.key.capped());
+        // The same re-plan told that the ground before the loss was the
+        // settled plan: it stops early where the loss is absorbed.
+        let ra = run(
+            &after,
+            &SolveOptions {
+                settled_before_loss: Some(before.placement.clone()),
+                ..replan_options()
+            },
+        );
+        with_ground.push(ra.elapsed.as_secs_f64() * 1e3);
+        let fired = ra.stop == oddsboard::solver::StopReason::LossAbsorbed;
+        if fired {
+            absorbed.push(ra.elapsed.as_secs_f64() * 1e3);
+        }
+        let v = oddsboard::solver::stable::verdict(&r.key, &ra.key, replan_options().slack);
+        let worse = matches!(v, oddsboard::solver::stable::Verdict::Worse { .. });
+        let more = ra.disruption > r.disruption;
+        println!(
+            "  seed {seed}: with the pre-loss ground: {:.2} ms, stop {}, {} withdrawals, {} dispatches ({}){}; {}",
+            ra.elapsed.as_secs_f64() * 1e3,
+            ra.stop.as_str(),
+            ra.disruption.withdrawals,
+            ra.disruption.dispatches,
+            v.as_str(),
+            if worse || more {
+                " WORSE THAN THE FULL RULE"
+            } else {
+                ""
+            },
+            fmt_key(&ra.key)
+        );
+        println!("  seed {seed}: its capped key {:?}", ra.key.capped());
     }
+    let fired = absorbed.len();
+    let n = with_ground.len();
     let p50 = |v: &mut Vec<f64>| {
         v.sort_by(f64::total_cmp);
         v[v.len() / 2]
@@ -592,6 +644,15 @@ fn replan_after_loss() {
         p50(&mut first),
         p50(&mut settled),
         p50(&mut settled_slack0)
+    );
+    println!(
+        "  with the pre-loss ground: the loss absorbed on {fired} of {n} seeds; p50 {:.2} ms over all seeds{}",
+        p50(&mut with_ground),
+        if fired > 0 {
+            format!(", {:.2} ms over those absorbed", p50(&mut absorbed))
+        } else {
+            String::new()
+        }
     );
 }
 

@@ -91,6 +91,13 @@ pub struct SolveOptions {
     /// budget independent of the clock, for reproducible runs. Default
     /// `u64::MAX` (the budget and `stale_rounds` decide).
     pub max_epochs: u64,
+    /// The ground as it stood before the units now lost were lost, when it
+    /// was the settled recommendation then (e.g. the accepted proposal) and
+    /// nothing but the losses changed since. A re-plan too large for the
+    /// exact search then stops early when the loss can be absorbed
+    /// ([`stable::absorb_loss`], [`StopReason::LossAbsorbed`]). Default
+    /// `None`.
+    pub settled_before_loss: Option<Placement>,
 }
 
 /// The cores this machine offers (at least 1): the front ends' default for
@@ -112,6 +119,7 @@ impl Default for SolveOptions {
             stale_rounds: 400,
             threads: 1,
             max_epochs: u64::MAX,
+            settled_before_loss: None,
         }
     }
 }
@@ -135,6 +143,10 @@ pub enum StopReason {
     Cancelled,
     /// The anytime search stopped finding better plans.
     NoImprovement,
+    /// A re-plan after a loss ended early: the ground repaired reaches,
+    /// entry by entry, what the settled ground reached before the loss
+    /// ([`stable::absorb_loss`]).
+    LossAbsorbed,
 }
 
 impl StopReason {
@@ -144,6 +156,7 @@ impl StopReason {
             StopReason::BudgetExhausted => "budget_exhausted",
             StopReason::Cancelled => "cancelled",
             StopReason::NoImprovement => "no_improvement",
+            StopReason::LossAbsorbed => "loss_absorbed",
         }
     }
 }
@@ -294,6 +307,42 @@ fn final_bound(ctx: &Ctx, budget: &Budget) -> Option<f64> {
     (!budget.cancelled() && affordable).then(|| exact::worst_odds_upper_bound(ctx))
 }
 
+/// The report of a re-plan that [`stable::absorb_loss`] settled.
+fn absorbed_report(
+    ctx: &Ctx,
+    budget: &Budget,
+    a: stable::Absorbed,
+    on_progress: &mut dyn FnMut(&Progress),
+) -> SolveReport {
+    let inc = ctx.inc;
+    let placement = stable::settle_interchangeable(inc, &inc.placement, &a.state.placement());
+    let key = ObjectiveKey::of(inc, &placement);
+    on_progress(&Progress {
+        placement: &placement,
+        key: &key,
+        elapsed: budget.elapsed(),
+        iterations: a.iterations,
+        upper_bound: None,
+        improved: true,
+    });
+    SolveReport {
+        moves: moves_between(&inc.placement, &placement),
+        disruption: stable::disruption(inc, &inc.placement, &placement),
+        thresholds: a.thresholds,
+        placement,
+        key,
+        proven_optimal: false,
+        upper_bound: final_bound(ctx, budget),
+        iterations: a.iterations,
+        elapsed: budget.elapsed(),
+        stop: if budget.cancelled() {
+            StopReason::Cancelled
+        } else {
+            StopReason::LossAbsorbed
+        },
+    }
+}
+
 /// Recommends a placement. See the module docs for the method; the caller
 /// owns the budget (in `options`) and the cancel flag, which is checked
 /// between steps of the search (every few hundred exact-search nodes).
@@ -309,6 +358,15 @@ pub fn solve(
     let inc = incident;
     let stable = !options.from_scratch;
     let exact = ctx.movable.len() <= options.exact_max_units;
+
+    // After a loss the ground may absorb it without the full search.
+    if stable
+        && !exact
+        && let Some(before) = &options.settled_before_loss
+        && let Some(a) = stable::absorb_loss(&ctx, &inc.placement, before, options.slack, &budget)
+    {
+        return Ok(absorbed_report(&ctx, &budget, a, on_progress));
+    }
 
     let mut iterations = 0u64;
     let mut report = |s: &State, key: &ObjectiveKey, iterations: u64, improved: bool| {
