@@ -246,6 +246,7 @@ pub fn stable_plan(
         ctx.with_caps(top_caps(ctx, &tiers, thr))
     });
     let step_limit = 4 * inc.units.len() + 16;
+    let mut memo = super::search::Certified::new(inc.tasks.len());
     for _ in 0..step_limit {
         let Some(held) = held.as_ref() else { break };
         if ok || budget.exhausted() {
@@ -253,17 +254,18 @@ pub fn stable_plan(
         }
         // Given up at the budget: a full scan at 10 000 × 1 000 takes
         // seconds when no step helps.
-        match super::search::best_step_within(
+        match super::search::best_step_certified(
             held,
             &mut from_ground,
             &mut iterations,
-            usize::MAX,
-            true,
+            &mut memo,
             Some(budget),
         ) {
             Some(step) => {
                 let before = from_ground.key(held);
+                let was = from_ground.place.clone();
                 let undo = apply_step(inc, &mut from_ground, step);
+                memo.between(&was, &from_ground.place);
                 if !from_ground.key(held).better_than(&before) {
                     apply_step(inc, &mut from_ground, undo);
                     break;
