@@ -13,6 +13,10 @@
 //! * [`baselines`]: expected-value, mean-minus-spread and random plans.
 //!
 //! How [`solve`] runs:
+//! 0. after a loss, given the settled ground from before it
+//!    ([`SolveOptions::settled_before_loss`]), a repair around the loss
+//!    that brings every capped entry back ends the solve
+//!    ([`stable::absorb_loss`]);
 //! 1. start plans (the ground made feasible, the warm start, an empty board)
 //!    are filled greedily (the worst task takes its best reserve unit) and the
 //!    best is kept: a first plan in milliseconds;
