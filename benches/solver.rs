@@ -89,6 +89,53 @@ fn loss_pair(seed: u64) -> (Incident, Incident) {
     (inc, after)
 }
 
+/// The incident of [`loss_pair`] with its ground re-settled by the stable
+/// rule (up to three re-plans, until one proposes no move): the ground a
+/// commander who accepted each recommendation would have, before the loss.
+fn resettled(seed: u64) -> Incident {
+    let (mut inc, _) = loss_pair(seed);
+    for _ in 0..3 {
+        let r = run(&inc, &replan_options());
+        if r.moves.is_empty() {
+            break;
+        }
+        inc.placement = r.placement;
+    }
+    inc
+}
+
+/// As [`loss_pair`], but the unit lost is the strongest (or the weakest)
+/// one placed on a task above its tier's secure level (a well-resourced
+/// task; `None` when no task is): a loss the task may absorb.
+fn loss_pair_above_cap(seed: u64, strongest: bool) -> Option<(Incident, Incident)> {
+    let (inc, _) = loss_pair(seed);
+    lose_above_cap(inc, strongest)
+}
+
+/// The loss of [`loss_pair_above_cap`] from `inc`'s ground.
+fn lose_above_cap(inc: Incident, strongest: bool) -> Option<(Incident, Incident)> {
+    let odds = oddsboard::odds::evaluate(&inc, &inc.placement);
+    let above = |t: oddsboard::model::TaskIdx| {
+        let cap = oddsboard::solver::key::ln_cap(&inc, inc.tasks[t].tier);
+        odds[t.index()].ln_odds > cap
+    };
+    let lost = oddsboard::model::UnitIdx::range(inc.units.len())
+        .filter(|&u| !inc.pins.contains_key(&u) && inc.placement.get(u).is_some_and(above))
+        .max_by(|&a, &b| {
+            let s = |u: oddsboard::model::UnitIdx| {
+                inc.units[u].ratings.iter().map(|r| r.mean).sum::<f64>()
+            };
+            if strongest {
+                s(a).total_cmp(&s(b))
+            } else {
+                s(b).total_cmp(&s(a))
+            }
+        })?;
+    let mut after = inc.clone();
+    after.remove_unit(lost);
+    Some((inc, after))
+}
+
 fn replan_options() -> SolveOptions {
     SolveOptions {
         budget: Duration::from_millis(1000),
@@ -525,13 +572,50 @@ fn key_after_budget() {
     }
 }
 
+/// Seeds of the `replan` section: `ODDSBOARD_REPLAN_SEEDS=a-b` (inclusive),
+/// default 0-9.
+fn replan_seeds() -> std::ops::RangeInclusive<u64> {
+    let v = std::env::var("ODDSBOARD_REPLAN_SEEDS").unwrap_or_default();
+    let mut it = v.split('-').map(|x| x.trim().parse::<u64>());
+    match (it.next(), it.next()) {
+        (Some(Ok(a)), Some(Ok(b))) if a <= b => a..=b,
+        _ => 0..=9,
+    }
+}
+
+/// An early-stop run against the full rule's: time, stop, disruption,
+/// verdict, and a flag when it gives up an entry beyond the slack or
+/// disturbs more.
+fn against_full(full: &SolveReport, early: &SolveReport) -> String {
+    use oddsboard::solver::stable::{Verdict, verdict};
+    let v = verdict(&full.key, &early.key, replan_options().slack);
+    let bad = matches!(v, Verdict::Worse { .. }) || early.disruption > full.disruption;
+    format!(
+        "{:.2} ms, stop {}, {} withdrawals, {} dispatches ({}){}; {}",
+        early.elapsed.as_secs_f64() * 1e3,
+        early.stop.as_str(),
+        early.disruption.withdrawals,
+        early.disruption.dispatches,
+        v.as_str(),
+        if bad { " WORSE THAN THE FULL RULE" } else { "" },
+        fmt_key(&early.key)
+    )
+}
+
 fn replan_after_loss() {
-    println!("== re-plan after one loss, 100 x 15 x 4 (10 seeds) ==");
+    let seeds = replan_seeds();
+    println!(
+        "== re-plan after one loss, 100 x 15 x 4 (seeds {}-{}) ==",
+        seeds.start(),
+        seeds.end()
+    );
     let mut first = Vec::new();
     let mut settled = Vec::new();
     let mut settled_slack0 = Vec::new();
-    for seed in 0..10 {
-        let (_, after) = loss_pair(seed);
+    let mut with_ground = Vec::new();
+    let mut absorbed = Vec::new();
+    for seed in seeds {
+        let (before, after) = loss_pair(seed);
         // The rule without threshold searches (slack 0), for the cost of
         // the sequential thresholds.
         let r00 = run(
@@ -582,6 +666,24 @@ fn replan_after_loss() {
         );
         // The settled key in full (ln, capped entries), to compare runs.
         println!("  seed {seed}: settled capped key {:?}", r.key.capped());
+        // The same re-plan told that the ground before the loss was the
+        // settled plan: it stops early where the loss is absorbed.
+        let ra = run(
+            &after,
+            &SolveOptions {
+                settled_before_loss: Some(before.placement.clone()),
+                ..replan_options()
+            },
+        );
+        with_ground.push(ra.elapsed.as_secs_f64() * 1e3);
+        if ra.stop == oddsboard::solver::StopReason::LossAbsorbed {
+            absorbed.push(ra.elapsed.as_secs_f64() * 1e3);
+        }
+        println!(
+            "  seed {seed}: with the pre-loss ground: {}",
+            against_full(&r, &ra)
+        );
+        println!("  seed {seed}: its capped key {:?}", ra.key.capped());
     }
     let p50 = |v: &mut Vec<f64>| {
         v.sort_by(f64::total_cmp);
@@ -593,6 +695,64 @@ fn replan_after_loss() {
         p50(&mut settled),
         p50(&mut settled_slack0)
     );
+    let (fired, n) = (absorbed.len(), with_ground.len());
+    println!(
+        "  with the pre-loss ground: the loss absorbed on {fired} of {n} seeds; p50 {:.2} ms over all seeds{}",
+        p50(&mut with_ground),
+        if fired > 0 {
+            format!(", {:.2} ms over those absorbed", p50(&mut absorbed))
+        } else {
+            String::new()
+        }
+    );
+    // A unit lost from a task above its secure level instead: the
+    // strongest such unit, then the weakest; then the same from a ground
+    // re-settled by the stable rule before the loss.
+    for (which, strongest, settle) in [
+        ("strongest", true, false),
+        ("weakest", false, false),
+        ("re-settled, strongest", true, true),
+        ("re-settled, weakest", false, true),
+    ] {
+        let (mut full, mut early, mut hits, mut n) = (Vec::new(), Vec::new(), 0, 0);
+        for seed in replan_seeds() {
+            let pair = if settle {
+                lose_above_cap(resettled(seed), strongest)
+            } else {
+                loss_pair_above_cap(seed, strongest)
+            };
+            let Some((before, after)) = pair else {
+                println!("  seed {seed}, {which} above the cap: no task above its secure level");
+                continue;
+            };
+            n += 1;
+            let r = run(&after, &replan_options());
+            let ra = run(
+                &after,
+                &SolveOptions {
+                    settled_before_loss: Some(before.placement.clone()),
+                    ..replan_options()
+                },
+            );
+            full.push(r.elapsed.as_secs_f64() * 1e3);
+            early.push(ra.elapsed.as_secs_f64() * 1e3);
+            hits += usize::from(ra.stop == oddsboard::solver::StopReason::LossAbsorbed);
+            println!(
+                "  seed {seed}, {which} above the cap: full rule {:.1} ms ({} withdrawals, {} dispatches); with the pre-loss ground: {}",
+                r.elapsed.as_secs_f64() * 1e3,
+                r.disruption.withdrawals,
+                r.disruption.dispatches,
+                against_full(&r, &ra)
+            );
+        }
+        if n > 0 {
+            println!(
+                "  {which} above the cap: absorbed on {hits} of {n} seeds; p50 full rule {:.1} ms, p50 with the pre-loss ground {:.2} ms",
+                p50(&mut full),
+                p50(&mut early)
+            );
+        }
+    }
 }
 
 fn baselines_side_by_side() {

@@ -13,6 +13,10 @@
 //! * [`baselines`]: expected-value, mean-minus-spread and random plans.
 //!
 //! How [`solve`] runs:
+//! 0. after a loss, given the settled ground from before it
+//!    ([`SolveOptions::settled_before_loss`]), a repair around the loss
+//!    that brings every capped entry back ends the solve
+//!    ([`stable::absorb_loss`]);
 //! 1. start plans (the ground made feasible, the warm start, an empty board)
 //!    are filled greedily (the worst task takes its best reserve unit) and the
 //!    best is kept: a first plan in milliseconds;
@@ -91,6 +95,13 @@ pub struct SolveOptions {
     /// budget independent of the clock, for reproducible runs. Default
     /// `u64::MAX` (the budget and `stale_rounds` decide).
     pub max_epochs: u64,
+    /// The ground as it stood before the units now lost were lost, when it
+    /// was the settled recommendation then (e.g. the accepted proposal) and
+    /// nothing but the losses changed since. A re-plan too large for the
+    /// exact search then stops early when the loss can be absorbed
+    /// ([`stable::absorb_loss`], [`StopReason::LossAbsorbed`]). Default
+    /// `None`.
+    pub settled_before_loss: Option<Placement>,
 }
 
 /// The cores this machine offers (at least 1): the front ends' default for
@@ -112,6 +123,7 @@ impl Default for SolveOptions {
             stale_rounds: 400,
             threads: 1,
             max_epochs: u64::MAX,
+            settled_before_loss: None,
         }
     }
 }
@@ -135,6 +147,10 @@ pub enum StopReason {
     Cancelled,
     /// The anytime search stopped finding better plans.
     NoImprovement,
+    /// A re-plan after a loss ended early: the ground repaired reaches,
+    /// entry by entry, what the settled ground reached before the loss
+    /// ([`stable::absorb_loss`]).
+    LossAbsorbed,
 }
 
 impl StopReason {
@@ -144,6 +160,7 @@ impl StopReason {
             StopReason::BudgetExhausted => "budget_exhausted",
             StopReason::Cancelled => "cancelled",
             StopReason::NoImprovement => "no_improvement",
+            StopReason::LossAbsorbed => "loss_absorbed",
         }
     }
 }
@@ -337,6 +354,42 @@ fn search_bound(
         .cloned()
 }
 
+/// The report of a re-plan that [`stable::absorb_loss`] settled.
+fn absorbed_report(
+    ctx: &Ctx,
+    budget: &Budget,
+    a: stable::Absorbed,
+    on_progress: &mut dyn FnMut(&Progress),
+) -> SolveReport {
+    let inc = ctx.inc;
+    let placement = stable::settle_interchangeable(inc, &inc.placement, &a.state.placement());
+    let key = ObjectiveKey::of(inc, &placement);
+    on_progress(&Progress {
+        placement: &placement,
+        key: &key,
+        elapsed: budget.elapsed(),
+        iterations: a.iterations,
+        bound: None,
+        improved: true,
+    });
+    SolveReport {
+        moves: moves_between(&inc.placement, &placement),
+        disruption: stable::disruption(inc, &inc.placement, &placement),
+        thresholds: a.thresholds,
+        placement,
+        key,
+        proven_optimal: false,
+        upper_bound: final_bound(ctx, budget),
+        iterations: a.iterations,
+        elapsed: budget.elapsed(),
+        stop: if budget.cancelled() {
+            StopReason::Cancelled
+        } else {
+            StopReason::LossAbsorbed
+        },
+    }
+}
+
 /// Recommends a placement. See the module docs for the method; the caller
 /// owns the budget (in `options`) and the cancel flag, which is checked
 /// between steps of the search (every few hundred exact-search nodes).
@@ -352,6 +405,15 @@ pub fn solve(
     let inc = incident;
     let stable = !options.from_scratch;
     let exact = ctx.movable.len() <= options.exact_max_units;
+
+    // After a loss the ground may absorb it without the full search.
+    if stable
+        && !exact
+        && let Some(before) = &options.settled_before_loss
+        && let Some(a) = stable::absorb_loss(&ctx, &inc.placement, before, options.slack, &budget)
+    {
+        return Ok(absorbed_report(&ctx, &budget, a, on_progress));
+    }
 
     let mut iterations = 0u64;
     let bound_found: std::cell::OnceCell<Option<relax::TierBound>> = std::cell::OnceCell::new();

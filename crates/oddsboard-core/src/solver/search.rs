@@ -466,6 +466,83 @@ pub fn best_step_within(
     swaps: bool,
     budget: Option<&Budget>,
 ) -> Option<Step> {
+    scan(ctx, state, iterations, max_tasks, swaps, budget, None)
+}
+
+/// Which tasks are known to have no improving step (issue 11: most of a
+/// descent's scans find nothing). Whether a candidate improves the key
+/// depends only on the tasks it touches (the key is separable, see
+/// [`compare_change_capped`]), so a task found with no improving step keeps
+/// none until it, a task it trades with, or the reserve changes; then only
+/// the candidates touching what changed are scored again. Not used with
+/// held entries (floors), whose ranking depends on every task.
+#[derive(Clone)]
+pub struct Certified {
+    /// Stamp at which each task was found with no improving step.
+    at: Vec<Option<u64>>,
+    /// Stamp of each task's last change.
+    changed: Vec<u64>,
+    reserve_changed: u64,
+    now: u64,
+}
+
+impl Certified {
+    pub fn new(n_tasks: usize) -> Self {
+        Certified {
+            at: vec![None; n_tasks],
+            changed: vec![0; n_tasks],
+            reserve_changed: 0,
+            now: 1,
+        }
+    }
+
+    /// Unit moves `from` → `to` happened (`None`: reserve).
+    pub fn moved(&mut self, from: Option<TaskIdx>, to: Option<TaskIdx>) {
+        if from == to {
+            return;
+        }
+        self.now += 1;
+        for side in [from, to] {
+            match side {
+                Some(t) => self.changed[t] = self.now,
+                None => self.reserve_changed = self.now,
+            }
+        }
+    }
+
+    /// Marks the changes between two placements of the same units.
+    pub fn between(&mut self, a: &[Option<TaskIdx>], b: &[Option<TaskIdx>]) {
+        for (x, y) in a.iter().zip(b) {
+            self.moved(*x, *y);
+        }
+    }
+}
+
+/// [`best_step_within`] that skips, for tasks `memo` holds with no
+/// improving step, every candidate whose other side (reserve or task) has
+/// not changed since; the step found is the one a full scan finds.
+pub fn best_step_certified(
+    ctx: &Ctx,
+    state: &mut State,
+    iterations: &mut u64,
+    memo: &mut Certified,
+    budget: Option<&Budget>,
+) -> Option<Step> {
+    if !ctx.floors.is_empty() || ctx.focus {
+        return best_step_within(ctx, state, iterations, usize::MAX, true, budget);
+    }
+    scan(ctx, state, iterations, usize::MAX, true, budget, Some(memo))
+}
+
+fn scan(
+    ctx: &Ctx,
+    state: &mut State,
+    iterations: &mut u64,
+    max_tasks: usize,
+    swaps: bool,
+    budget: Option<&Budget>,
+    mut memo: Option<&mut Certified>,
+) -> Option<Step> {
     let inc = ctx.inc;
     let mut seen = vec![false; ctx.n_groups];
     let order = state.bottlenecks(ctx);
@@ -483,6 +560,18 @@ pub fn best_step_within(
         if budget.is_some_and(Budget::exhausted) {
             return None;
         }
+        // Since when f is known to have no improving step: only candidates
+        // whose other side changed after that need scoring.
+        let since = memo
+            .as_ref()
+            .and_then(|m| m.at[f].filter(|&c| m.changed[f] <= c));
+        let fresh = |side: Option<TaskIdx>| match (since, memo.as_ref()) {
+            (Some(c), Some(m)) => match side {
+                Some(t) => m.changed[t] > c,
+                None => m.reserve_changed > c,
+            },
+            _ => true,
+        };
         let mut best = current;
         let consider = |state: &State, s: Scored, best: &mut Scored| {
             if cmp_candidates(ctx, state, &s, best) == Ordering::Greater {
@@ -499,7 +588,7 @@ pub fn best_step_within(
         seen.iter_mut().for_each(|x| *x = false);
         for &u in &ctx.movable {
             let from = state.place[u];
-            if from == Some(f) || !ctx.allowed_on[u][f] || f_full {
+            if from == Some(f) || !ctx.allowed_on[u][f] || f_full || !fresh(from) {
                 continue;
             }
             if from.is_none() {
@@ -534,18 +623,20 @@ pub fn best_step_within(
             .collect();
         for &u in &on_f {
             let after_f = state.try_ln(inc, f, None, Some(u));
-            *iterations += 1;
-            consider(
-                state,
-                Scored {
-                    step: Step::Move(u, None),
-                    changes: [change(f, state, after_f), zero],
-                    n: 1,
-                },
-                &mut best,
-            );
+            if fresh(None) {
+                *iterations += 1;
+                consider(
+                    state,
+                    Scored {
+                        step: Step::Move(u, None),
+                        changes: [change(f, state, after_f), zero],
+                        n: 1,
+                    },
+                    &mut best,
+                );
+            }
             for &g in &ctx.allowed[u] {
-                if g == f || ctx.is_full(g, state.tallies[g].count()) {
+                if g == f || ctx.is_full(g, state.tallies[g].count()) || !fresh(Some(g)) {
                     continue;
                 }
                 *iterations += 1;
@@ -569,7 +660,7 @@ pub fn best_step_within(
             seen.iter_mut().for_each(|x| *x = false);
             for &v in &ctx.movable {
                 let b = state.place[v];
-                if b == Some(f) || !ctx.allowed_on[v][f] {
+                if b == Some(f) || !ctx.allowed_on[v][f] || !fresh(b) {
                     continue;
                 }
                 if b.is_none() {
@@ -600,6 +691,9 @@ pub fn best_step_within(
         }
         if best.n > 0 {
             return Some(best.step);
+        }
+        if let Some(m) = memo.as_deref_mut() {
+            m.at[f] = Some(m.now);
         }
     }
     None
@@ -671,6 +765,9 @@ pub fn local_search(
     let mut iterations = 0u64;
     let mut stale = 0u64;
     let mut rounds = 0u64;
+    let mut memo = Certified::new(inc.tasks.len());
+    // The memo of `best` (a local optimum once a descent ended there).
+    let mut best_memo = memo.clone();
     loop {
         // Descend to a local optimum.
         loop {
@@ -691,14 +788,9 @@ pub fn local_search(
                     stopped_by_budget: true,
                 };
             }
-            let Some(step) = best_step_within(
-                ctx,
-                &mut state,
-                &mut iterations,
-                usize::MAX,
-                true,
-                Some(budget),
-            ) else {
+            let Some(step) =
+                best_step_certified(ctx, &mut state, &mut iterations, &mut memo, Some(budget))
+            else {
                 if budget.exhausted() {
                     continue; // reported at the top of the loop
                 }
@@ -709,8 +801,11 @@ pub fn local_search(
             // the running sums could otherwise make a step and its reverse
             // both look like gains (a cycle).
             let before = state.key(ctx);
+            let was = state.place.clone();
             let undo = apply_step(inc, &mut state, step);
+            memo.between(&was, &state.place);
             if !state.key(ctx).better_than(&before) {
+                // The tasks it touched are marked changed already.
                 apply_step(inc, &mut state, undo);
                 break;
             }
@@ -721,12 +816,14 @@ pub fn local_search(
         if key.better_than(&best_key) {
             best = state.clone();
             best_key = key;
+            best_memo = memo.clone();
             stale = 0;
             on_improve(&best, &best_key, iterations);
         } else {
             stale += 1;
             // Restart from the best plan found so far.
             state = best.clone();
+            memo = best_memo.clone();
         }
         rounds += 1;
         if stale >= limits.stale_rounds || rounds >= limits.max_rounds {
@@ -737,7 +834,9 @@ pub fn local_search(
                 stopped_by_budget: false,
             };
         }
+        let was = state.place.clone();
         perturb(ctx, &mut state, &mut rng);
+        memo.between(&was, &state.place);
     }
 }
 

@@ -246,6 +246,7 @@ pub fn stable_plan(
         ctx.with_caps(top_caps(ctx, &tiers, thr))
     });
     let step_limit = 4 * inc.units.len() + 16;
+    let mut memo = super::search::Certified::new(inc.tasks.len());
     for _ in 0..step_limit {
         let Some(held) = held.as_ref() else { break };
         if ok || budget.exhausted() {
@@ -253,17 +254,18 @@ pub fn stable_plan(
         }
         // Given up at the budget: a full scan at 10 000 × 1 000 takes
         // seconds when no step helps.
-        match super::search::best_step_within(
+        match super::search::best_step_certified(
             held,
             &mut from_ground,
             &mut iterations,
-            usize::MAX,
-            true,
+            &mut memo,
             Some(budget),
         ) {
             Some(step) => {
                 let before = from_ground.key(held);
+                let was = from_ground.place.clone();
                 let undo = apply_step(inc, &mut from_ground, step);
+                memo.between(&was, &from_ground.place);
                 if !from_ground.key(held).better_than(&before) {
                     apply_step(inc, &mut from_ground, undo);
                     break;
@@ -600,6 +602,265 @@ pub fn stable_replan(
         stopped_by_budget,
         thresholds: thr,
     }
+}
+
+/// A re-plan after a loss that the ground absorbed ([`absorb_loss`]).
+pub struct Absorbed {
+    /// The ground repaired: every capped entry at least what the ground
+    /// reached before the loss.
+    pub state: State,
+    /// The rule applied to the plans found (the repaired plan and the
+    /// ground after the loss), as on the heuristic path.
+    pub thresholds: Thresholds,
+    /// Candidate moves scored.
+    pub iterations: u64,
+}
+
+/// The settled re-plan after a loss, when the loss can be absorbed around
+/// the tasks it touched (issue 11).
+///
+/// `before` is the ground as it stood before the units now lost were lost,
+/// when it was the settled recommendation then; apart from the lost units
+/// it must equal `ground` (else `None`: something else changed). A lost
+/// unit's tombstone keeps its ratings and readings, so `before` is scored
+/// as it stood. Every plan after the loss is a plan before it (the lost
+/// unit idle), so a plan whose capped key is, entry by entry, at least the
+/// key of `before` cannot be beaten after the loss by more than `before`
+/// could be beaten before it: the loss was absorbed.
+///
+/// Repair, task by task (each task at least its own capped odds before
+/// the loss is enough for the entries): the worst short task takes the
+/// reserve unit that lifts it most; when none helps, an ejection chain of
+/// depth ≤ 2 (a unit of a task with odds to spare moves in, and a unit from
+/// reserve or from another such task may take its place). Then moves are
+/// undone toward the ground while every entry stays at its pre-loss value.
+/// `None` when the repair does not get there: the caller runs the full
+/// rule.
+pub fn absorb_loss(
+    ctx: &Ctx,
+    ground: &Placement,
+    before: &Placement,
+    slack: f64,
+    budget: &Budget,
+) -> Option<Absorbed> {
+    let inc = ctx.inc;
+    let n = inc.units.len();
+    if before.len() != n {
+        return None;
+    }
+    let mut any_lost = false;
+    for u in UnitIdx::range(n) {
+        let b = before.get(u);
+        if inc.units[u].is_lost() {
+            if let Some(t) = b {
+                if t.index() >= inc.tasks.len() {
+                    return None;
+                }
+                any_lost = true;
+            }
+        } else if b != ground.get(u) {
+            return None;
+        }
+    }
+    if !any_lost {
+        return None;
+    }
+    // The tallies count every unit placed, tombstones included.
+    let then = State::new(ctx, before);
+    let target: Vec<f64> = ObjectiveKey::from_ln_odds(inc, &then.ln).capped().to_vec();
+    let capped = |t: TaskIdx, ln: f64| ln.min(ctx.caps[inc.tasks[t].tier.index()]);
+    let want: Vec<f64> = TaskIdx::range(inc.tasks.len())
+        .map(|t| capped(t, then.ln[t]))
+        .collect();
+    let ok = |s: &State, t: TaskIdx| !counts(inc, t) || reaches(capped(t, s.ln[t]), want[t]);
+    let g: Vec<Option<TaskIdx>> = UnitIdx::range(n).map(|u| ground.get(u)).collect();
+    let after = State::new(ctx, &ctx.repair(ground));
+    let mut s = after.clone();
+    let mut iterations = 0u64;
+    for _ in 0..=2 * ctx.movable.len() {
+        if ObjectiveKey::from_ln_odds(inc, &s.ln).meets(&target) {
+            break;
+        }
+        if budget.exhausted() {
+            return None;
+        }
+        let f = s.bottlenecks(ctx).into_iter().find(|&t| !ok(&s, t))?;
+        let step = refill_step(ctx, &mut s, f, &mut iterations)
+            .or_else(|| chain_step(ctx, &mut s, f, &ok, &mut iterations))?;
+        for (u, to) in step.into_iter().flatten() {
+            s.apply_move(inc, u, to);
+        }
+    }
+    let key = ObjectiveKey::from_ln_odds(inc, &s.ln);
+    if !key.meets(&target) {
+        return None;
+    }
+    prune_toward_ground(ctx, &mut s, &g, &target, budget);
+    let s = State::new(ctx, &s.placement());
+    if !ObjectiveKey::from_ln_odds(inc, &s.ln).meets(&target) {
+        return None;
+    }
+    let keys = [&s, &after].map(|x| ObjectiveKey::from_ln_odds(inc, &x.ln));
+    Some(Absorbed {
+        thresholds: thresholds_over(&keys, slack),
+        state: s,
+        iterations,
+    })
+}
+
+/// Up to two moves, applied in order.
+type Chain = [Option<(UnitIdx, Option<TaskIdx>)>; 2];
+
+/// ln odds of `t` with `add` added and `remove` taken away (tally left as
+/// it was), and the same ignoring `min_units` (ranks fills below a minimum).
+fn trial(
+    ctx: &Ctx,
+    s: &mut State,
+    t: TaskIdx,
+    add: Option<UnitIdx>,
+    remove: Option<UnitIdx>,
+) -> (f64, f64) {
+    let inc = ctx.inc;
+    let tl = &mut s.tallies[t];
+    if let Some(r) = remove {
+        tl.remove(inc, r);
+    }
+    if let Some(a) = add {
+        tl.add(inc, a);
+    }
+    let out = (
+        tl.ln_odds(&inc.tasks[t]),
+        super::search::ln_odds_ignoring_minimum(tl, inc, t),
+    );
+    if let Some(a) = add {
+        tl.remove(inc, a);
+    }
+    if let Some(r) = remove {
+        tl.add(inc, r);
+    }
+    out
+}
+
+fn better_ln(a: (f64, f64), b: (f64, f64)) -> bool {
+    use std::cmp::Ordering::*;
+    match super::key::cmp_ln(a.0, b.0) {
+        Greater => true,
+        Less => false,
+        Equal => super::key::cmp_ln(a.1, b.1) == Greater,
+    }
+}
+
+/// The reserve unit (one per group of interchangeable units) that lifts `f`
+/// most, if one lifts it at all.
+fn refill_step(ctx: &Ctx, s: &mut State, f: TaskIdx, iterations: &mut u64) -> Option<Chain> {
+    if ctx.is_full(f, s.tallies[f].count()) || !ctx.may_draw_reserve(s.reserve) {
+        return None;
+    }
+    let now = trial(ctx, s, f, None, None);
+    let mut seen = vec![false; ctx.n_groups];
+    let mut best: Option<(UnitIdx, (f64, f64))> = None;
+    for &u in &ctx.movable {
+        if s.place[u].is_some() || !ctx.allowed_on[u][f] || seen[ctx.group[u]] {
+            continue;
+        }
+        seen[ctx.group[u]] = true;
+        *iterations += 1;
+        let v = trial(ctx, s, f, Some(u), None);
+        if better_ln(v, now) && best.is_none_or(|(_, b)| better_ln(v, b)) {
+            best = Some((u, v));
+        }
+    }
+    best.map(|(u, _)| [Some((u, Some(f))), None])
+}
+
+/// Heads tried in a depth-2 chain: the units that lift `f` most.
+const CHAIN_HEADS: usize = 6;
+
+/// An ejection chain into `f` of depth ≤ 2 that lifts it and leaves every
+/// task it takes from at its pre-loss odds (`ok`): a unit of task A moves
+/// to `f`, and when A would fall short, a unit from reserve or from a task
+/// B with odds to spare takes its place. Fewest withdrawals first, then
+/// the highest odds of `f`.
+fn chain_step(
+    ctx: &Ctx,
+    s: &mut State,
+    f: TaskIdx,
+    ok: &dyn Fn(&State, TaskIdx) -> bool,
+    iterations: &mut u64,
+) -> Option<Chain> {
+    let inc = ctx.inc;
+    if ctx.is_full(f, s.tallies[f].count()) {
+        return None;
+    }
+    let now = trial(ctx, s, f, None, None);
+    // Heads: units on another task that lift f.
+    let mut heads: Vec<(UnitIdx, (f64, f64))> = Vec::new();
+    for &u in &ctx.movable {
+        let Some(a) = s.place[u] else { continue };
+        if a == f || !ctx.allowed_on[u][f] {
+            continue;
+        }
+        *iterations += 1;
+        let v = trial(ctx, s, f, Some(u), None);
+        if better_ln(v, now) {
+            heads.push((u, v));
+        }
+    }
+    heads.sort_by(|x, y| {
+        if better_ln(x.1, y.1) {
+            std::cmp::Ordering::Less
+        } else if better_ln(y.1, x.1) {
+            std::cmp::Ordering::Greater
+        } else {
+            x.0.cmp(&y.0)
+        }
+    });
+    // Depth 1: the best head whose task keeps its pre-loss odds.
+    for &(u, _) in &heads {
+        let a = s.place[u]?;
+        s.apply_move(inc, u, None);
+        let fine = ok(s, a);
+        s.apply_move(inc, u, Some(a));
+        if fine {
+            return Some([Some((u, Some(f))), None]);
+        }
+    }
+    // Depth 2: a head's task made up by a reserve unit (one withdrawal)
+    // before a unit of another task (two).
+    let mut best: Option<(usize, (f64, f64), Chain)> = None;
+    let mut seen = vec![false; ctx.n_groups];
+    for &(u, fv) in heads.iter().take(CHAIN_HEADS) {
+        let a = s.place[u]?;
+        s.apply_move(inc, u, Some(f));
+        seen.iter_mut().for_each(|x| *x = false);
+        for &v in &ctx.movable {
+            let b = s.place[v];
+            if b == Some(a) || b == Some(f) || v == u || !ctx.allowed_on[v][a] {
+                continue;
+            }
+            let withdrawals = 1 + usize::from(b.is_some());
+            if best.as_ref().is_some_and(|(w, bv, _)| {
+                withdrawals > *w || (withdrawals == *w && !better_ln(fv, *bv))
+            }) {
+                continue;
+            }
+            if b.is_none() {
+                if seen[ctx.group[v]] || !ctx.may_draw_reserve(s.reserve) {
+                    continue;
+                }
+                seen[ctx.group[v]] = true;
+            }
+            *iterations += 1;
+            s.apply_move(inc, v, Some(a));
+            let fine = ok(s, a) && b.is_none_or(|b| ok(s, b));
+            s.apply_move(inc, v, b);
+            if fine {
+                best = Some((withdrawals, fv, [Some((u, Some(f))), Some((v, Some(a)))]));
+            }
+        }
+        s.apply_move(inc, u, Some(a));
+    }
+    best.map(|(_, _, c)| c)
 }
 
 /// Puts interchangeable units back on their own ground task where the plan
