@@ -36,7 +36,7 @@ fn state_with_proposal(inc: Incident) -> AppState {
     let planner = SolverPlanner::with_budget(Duration::from_millis(300));
     let cancel = AtomicBool::new(false);
     let plan = planner
-        .plan(&state.incident, &cancel, &mut |_| {})
+        .plan(&state.incident, None, &cancel, &mut |_| {})
         .expect("plan");
     update(
         &mut state,
@@ -71,7 +71,7 @@ fn bench_key_while_replanning(c: &mut Criterion) {
         std::thread::spawn(move || {
             let planner = SolverPlanner::with_budget(Duration::from_secs(5));
             while !stop.load(Ordering::Relaxed) {
-                let _ = planner.plan(&inc, &stop, &mut |_| {});
+                let _ = planner.plan(&inc, None, &stop, &mut |_| {});
             }
         })
     };
@@ -121,7 +121,7 @@ fn bench_first_replan_after_loss(c: &mut Criterion) {
                 let cancel = AtomicBool::new(false);
                 let mut first: Option<(oddsboard::model::Placement, Duration, u64)> = None;
                 // Stop at the first placement the re-plan reports.
-                let result = planner.plan(&state.incident, &cancel, &mut |p| {
+                let result = planner.plan(&state.incident, None, &cancel, &mut |p| {
                     if let (None, Some(placement)) = (&first, p.placement) {
                         first = Some((placement.clone(), p.elapsed, p.iterations));
                         cancel.store(true, Ordering::Relaxed);

@@ -239,7 +239,7 @@ fn dashboard_and_advice_agree_with_plan() {
     let budget = Duration::from_secs(60);
     let plan = run(&inc, false, SLACK);
     let dash = SolverPlanner::with_budget(budget)
-        .plan(&inc, &cancel, &mut |_| {})
+        .plan(&inc, None, &cancel, &mut |_| {})
         .expect("plans");
     let opts = AdviseOptions {
         baseline_budget: budget,

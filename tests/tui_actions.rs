@@ -294,6 +294,7 @@ fn proposal_of_two_moves(b: &mut Bench) -> Vec<Event> {
             proven_optimal: false,
             elapsed: Duration::from_millis(3),
             bound: None,
+            settled: true,
         }),
     })
 }
@@ -523,4 +524,63 @@ fn record_a_field_reading_through_the_form_and_undo_it() {
     }
     b.key(KeyCode::Char('u'));
     assert_matches_log(&b);
+}
+
+/// The ground a settled re-plan kept is remembered for the next re-plan
+/// while only losses follow (as it stood before them), and forgotten on any
+/// other change or when the re-plan ended on its budget.
+#[test]
+fn a_settled_ground_is_kept_through_losses_only() {
+    fn finish(b: &mut Bench, settled: bool) {
+        let generation = b.state.generation;
+        let placement = b.state.incident.placement.clone();
+        b.send(AppEvent::SolverFinished {
+            generation,
+            result: Ok(PlanResult {
+                placement,
+                proven_optimal: false,
+                elapsed: Duration::from_millis(3),
+                bound: None,
+                settled,
+            }),
+        });
+    }
+    let mut b = Bench::new(drill());
+    let ground = b.state.incident.placement.clone();
+    assert_eq!(b.state.settled_ground, None);
+    // A re-plan cut by its budget that keeps the ground: not settled.
+    finish(&mut b, false);
+    assert_eq!(b.state.settled_ground, None);
+    finish(&mut b, true);
+    assert_eq!(b.state.settled_ground.as_ref(), Some(&ground));
+    // A loss: the ground before it is kept; so is a note.
+    let e1 = b.state.incident.unit_idx("E1").unwrap();
+    assert!(ground.get(e1).is_some(), "E1 works a task in the drill");
+    for event in [
+        Event::UnitLost {
+            unit: "E1".into(),
+            reason: Some("pump failure".into()),
+        },
+        Event::Note {
+            text: "E1 towed".into(),
+        },
+    ] {
+        let r = b.writer.append("radio", event).unwrap();
+        b.send(AppEvent::RecordAppended(r));
+    }
+    assert_ne!(b.state.incident.placement, ground);
+    assert_eq!(b.state.settled_ground.as_ref(), Some(&ground));
+    // A move on the ground: forgotten.
+    let r = b
+        .writer
+        .append(
+            "radio",
+            Event::Moved {
+                unit: "E4".into(),
+                to: Some("T4".into()),
+            },
+        )
+        .unwrap();
+    b.send(AppEvent::RecordAppended(r));
+    assert_eq!(b.state.settled_ground, None);
 }

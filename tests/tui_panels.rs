@@ -84,6 +84,7 @@ fn stale_solver_results_are_dropped() {
                 proven_optimal: true,
                 elapsed: Duration::from_millis(5),
                 bound: None,
+                settled: true,
             }),
         },
     );
@@ -154,6 +155,7 @@ fn replay_mid_way() {
             proven_optimal: true,
             elapsed: Duration::from_millis(2),
             bound: None,
+            settled: true,
         }),
     });
     b.key(KeyCode::Char('l'));
@@ -524,6 +526,7 @@ fn settled_bound_gives_way_on_a_short_line() {
                     worst_odds: 0.5,
                     upper_bound: Some(0.75),
                 }),
+                settled: true,
             }),
         },
     );

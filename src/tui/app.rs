@@ -165,6 +165,11 @@ pub struct AppState {
     /// Moves of the last `plan_proposed` written, so the same proposal is
     /// not written twice.
     pub last_written_proposal: Option<Vec<crate::log::Move>>,
+    /// The ground when a settled re-plan (one that ended on its own) kept
+    /// it, while nothing but unit losses changed since: the next re-plan is
+    /// told, so a loss the reserve or a short chain of moves can absorb is
+    /// settled at once (`SolveOptions::settled_before_loss`).
+    pub settled_ground: Option<Placement>,
     /// The last recommendation in the log: its seq and moves.
     pub last_proposed: Option<(u64, Vec<crate::log::Move>)>,
     /// What was done on the ground since that recommendation.
@@ -223,6 +228,8 @@ pub struct PlanResult {
     /// The first short tier's worst odds and how high they could go
     /// (`solver::relax`); `None` when proven or not computed.
     pub bound: Option<crate::solver::relax::TierBound>,
+    /// The search ended on its own (not on its budget or a cancel).
+    pub settled: bool,
 }
 
 /// Work for the runtime; `update` never does it itself.
@@ -284,6 +291,7 @@ impl AppState {
             last_seq: None,
             undo: Vec::new(),
             last_written_proposal: None,
+            settled_ground: None,
             last_proposed: None,
             done_since: Vec::new(),
             closed: Vec::new(),

@@ -27,12 +27,15 @@ pub struct PlanProgress<'a> {
 
 /// Something that recommends a placement for an incident.
 pub trait Planner: Send + Sync + 'static {
-    /// Plans from the placement on the ground. Calls `progress` with each
-    /// better placement found, and now and then with the work done so far.
-    /// Must return soon after `cancel` is raised.
+    /// Plans from the placement on the ground. `settled_before_loss` is the
+    /// ground before the units now lost were lost, when a settled re-plan
+    /// had kept it and only losses happened since. Calls `progress` with
+    /// each better placement found, and now and then with the work done so
+    /// far. Must return soon after `cancel` is raised.
     fn plan(
         &self,
         incident: &Incident,
+        settled_before_loss: Option<&Placement>,
         cancel: &AtomicBool,
         progress: &mut dyn FnMut(&PlanProgress),
     ) -> Result<PlanResult, String>;
@@ -68,6 +71,7 @@ impl Planner for SolverPlanner {
     fn plan(
         &self,
         incident: &Incident,
+        settled_before_loss: Option<&Placement>,
         cancel: &AtomicBool,
         progress: &mut dyn FnMut(&PlanProgress),
     ) -> Result<PlanResult, String> {
@@ -90,8 +94,17 @@ impl Planner for SolverPlanner {
                 });
             }
         };
-        let report = crate::solver::solve(incident, &self.options, cancel, &mut on_progress)
+        let options = crate::solver::SolveOptions {
+            settled_before_loss: settled_before_loss.cloned(),
+            ..self.options.clone()
+        };
+        let report = crate::solver::solve(incident, &options, cancel, &mut on_progress)
             .map_err(|e| e.to_string())?;
+        use crate::solver::StopReason;
+        let settled = matches!(
+            report.stop,
+            StopReason::Proved | StopReason::NoImprovement | StopReason::LossAbsorbed
+        );
         // The gap of the first short tier, after the plan is settled and
         // within a small time limit (the cancel flag stops it too).
         let bound = if report.proven_optimal {
@@ -110,6 +123,7 @@ impl Planner for SolverPlanner {
             proven_optimal: report.proven_optimal,
             elapsed: report.elapsed,
             bound,
+            settled,
         })
     }
 }

@@ -130,6 +130,7 @@ impl Runtime {
         let cancel = Arc::new(AtomicBool::new(false));
         self.running = Some(cancel.clone());
         let incident = state.incident.clone();
+        let settled_before_loss = state.settled_ground.clone();
         let tx = self.tx.clone();
         tokio::task::spawn_blocking(move || {
             let started = Instant::now();
@@ -143,7 +144,12 @@ impl Runtime {
                     bound: p.bound.cloned(),
                 });
             };
-            let result = planner.plan(&incident, &cancel, &mut progress);
+            let result = planner.plan(
+                &incident,
+                settled_before_loss.as_ref(),
+                &cancel,
+                &mut progress,
+            );
             let result = result.map(|mut r| {
                 if r.elapsed.is_zero() {
                     r.elapsed = started.elapsed();

@@ -51,6 +51,9 @@ pub fn update(state: &mut AppState, event: AppEvent) -> Vec<Effect> {
             }
             match result {
                 Ok(plan) => {
+                    state.settled_ground = (plan.settled
+                        && plan.placement == state.incident.placement)
+                        .then(|| plan.placement.clone());
                     state.take_placement(plan.placement);
                     state.plan_status = PlanStatus::Settled {
                         elapsed: plan.elapsed,
@@ -167,6 +170,14 @@ pub(super) fn on_record(state: &mut AppState, record: Record) -> Vec<Effect> {
     }
     if let Some(l) = lost_from {
         state.lost.push(l);
+    }
+    // Only losses keep the settled ground (as it stood before them).
+    let changes_incident = !matches!(
+        record.event,
+        Event::Note { .. } | Event::PlanRejected {} | Event::PlanProposed { .. }
+    );
+    if changes_incident && !matches!(record.event, Event::UnitLost { .. }) {
+        state.settled_ground = None;
     }
     match &record.event {
         Event::Note { .. } => Vec::new(),
