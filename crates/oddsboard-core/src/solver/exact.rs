@@ -33,9 +33,15 @@
 //! − mean now (the variance is at most that). Each free unit joins one task:
 //! when a trait's shortfalls over those tasks exceed the mean of the free
 //! units that may join any of them, no completion reaches the levels.
-//! Whole units: such a task needs `min_units` (one unit if it has a need)
-//! and per short trait the fewest free units whose means cover the
-//! shortfall; more than the free units that may join them cuts the node.
+//!
+//! Inert units ([`Goal::Key`]): a unit that brings no mean and no spread to
+//! any trait a task counts is not placed there once the task holds the
+//! units its count needs (`min_units`, one if it has a need): the same plan
+//! with the unit in reserve has the same key. Such units are only tried
+//! there while the task is short of that count (they may be what lifts it
+//! from odds 0); an optimal plan without the skipped pattern always
+//! exists (move such units to reserve one at a time, each move keeps the
+//! key).
 
 use super::Budget;
 use super::bound::{TraitBound, ratio_orders, task_ln_upper_bound, task_ln_upper_bound_traits};
@@ -105,10 +111,6 @@ struct Search<'c, 'a> {
     /// level, and per trait the extra shortfalls of the partial level
     /// (scratch of the cover cut).
     gap_must: Vec<f64>,
-    /// Per trait, every unit in descending order of mean (the count cut).
-    by_mean: Vec<Vec<UnitIdx>>,
-    /// Tasks counted by the count cut (scratch).
-    counted: Vec<TaskIdx>,
     gap_may: Vec<f64>,
     extra: Vec<Vec<f64>>,
 }
@@ -303,6 +305,30 @@ impl Search<'_, '_> {
         true
     }
 
+    /// Would unit `u` on task `t` change nothing the key sees ([`Goal::Key`]
+    /// only)? It brings no mean and no spread to any trait the task counts,
+    /// and the task already holds what its odds need from the count
+    /// (`min_units`, one unit if it has a need): then every plan with `u`
+    /// there ties or loses to the same plan with `u` in reserve (the task's
+    /// odds are the same, the reserve only grows), so that option is
+    /// skipped. See the module docs.
+    fn inert_on(&self, state: &State, u: UnitIdx, t: TaskIdx) -> bool {
+        if !matches!(self.goal, Goal::Key) {
+            return false;
+        }
+        let inc = self.ctx.inc;
+        let task = &inc.tasks[t];
+        let has_needs = task.needs.iter().any(|n| n.counts());
+        let least = task.min_units.unwrap_or(0).max(u32::from(has_needs));
+        if state.tallies[t].count() < least {
+            return false;
+        }
+        task.needs.iter().enumerate().all(|(k, n)| {
+            let r = inc.belief(u, k);
+            !n.counts() || (r.mean == 0.0 && r.sd() == 0.0)
+        })
+    }
+
     /// The cover cut of the module docs.
     fn cover_prunes(&mut self, state: &State) -> bool {
         let inc = self.ctx.inc;
@@ -318,9 +344,6 @@ impl Search<'_, '_> {
         extra.iter_mut().for_each(Vec::clear);
         let mut eligible = 0;
         let mut cut = false;
-        let mut units_needed = 0usize;
-        let mut counted = std::mem::take(&mut self.counted);
-        counted.clear();
         for t in crate::model::TaskIdx::range(inc.tasks.len()) {
             if !counts(inc, t) {
                 continue;
@@ -338,53 +361,6 @@ impl Search<'_, '_> {
             }
             if level.is_none() {
                 must.fill(0.0);
-            }
-            // Whole units: a task that must reach a level has odds above 0,
-            // so `min_units` (and one unit if it has a need: a task without
-            // needs has odds 1 empty); each short trait takes at least
-            // the fewest free units whose means cover its shortfall.
-            if level.is_some_and(|l| l > f64::NEG_INFINITY) {
-                let task = &inc.tasks[t];
-                let on = state.tallies[t].count();
-                let has_needs = task.needs.iter().any(|n| n.counts());
-                let mut least = task
-                    .min_units
-                    .unwrap_or(0)
-                    .max(u32::from(has_needs))
-                    .saturating_sub(on) as usize;
-                for (k, &g) in must.iter().enumerate() {
-                    if g <= 0.0 {
-                        continue;
-                    }
-                    let (mut sum, mut c, mut met) = (0.0, 0usize, false);
-                    for &u in &self.by_mean[k] {
-                        if !(self.free[u] && self.ctx.allowed_on[u][t]) {
-                            continue;
-                        }
-                        let m = inc.belief(u, k).mean;
-                        if m <= 0.0 {
-                            break;
-                        }
-                        sum += m;
-                        c += 1;
-                        if sum >= g - 1e-9 * g.abs().max(1.0) {
-                            met = true;
-                            break;
-                        }
-                    }
-                    if !met {
-                        cut = true;
-                        break;
-                    }
-                    least = least.max(c);
-                }
-                if cut {
-                    break;
-                }
-                if least > 0 {
-                    units_needed += least;
-                    counted.push(t);
-                }
             }
             for (k, &g) in must.iter().enumerate() {
                 if g > 0.0 {
@@ -412,16 +388,6 @@ impl Search<'_, '_> {
                 }
             }
         }
-        // Each free unit joins one task.
-        if !cut && units_needed > 0 {
-            let free_units = self
-                .order
-                .iter()
-                .filter(|&&u| self.free[u] && counted.iter().any(|&t| self.ctx.allowed_on[u][t]))
-                .count();
-            cut = units_needed > free_units;
-        }
-        self.counted = counted;
         if !cut && let Some((_, _, count)) = partial {
             if eligible < count {
                 cut = true;
@@ -550,6 +516,7 @@ impl Search<'_, '_> {
             if let Some(t) = o {
                 if self.ctx.is_full(t, state.tallies[t].count())
                     || !self.ctx.may_draw_reserve(state.reserve)
+                    || self.inert_on(state, u, t)
                 {
                     continue;
                 }
@@ -721,19 +688,6 @@ pub fn branch_and_bound(
         short: vec![(0.0, Vec::new()); n_traits],
         cover_buf: vec![0.0; n_traits],
         gap_must: vec![0.0; n_traits],
-        by_mean: (0..n_traits)
-            .map(|k| {
-                let mut o = ctx.movable.clone();
-                o.sort_by(|&a, &b| {
-                    inc.belief(b, k)
-                        .mean
-                        .total_cmp(&inc.belief(a, k).mean)
-                        .then(a.cmp(&b))
-                });
-                o
-            })
-            .collect(),
-        counted: Vec::new(),
         gap_may: vec![0.0; n_traits],
         extra: vec![Vec::new(); n_traits],
     };
