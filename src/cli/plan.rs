@@ -120,7 +120,7 @@ fn bound_views(bounds: &TierBounds) -> Vec<BoundView> {
             tier: b.tier.as_str(),
             worst_odds: b.worst_odds,
             upper_bound: b.upper_bound,
-            complete: b.complete,
+            complete: bounds.complete(b.tier),
         })
         .collect()
 }
@@ -508,7 +508,7 @@ fn bound_lines(bounds: &TierBounds) -> String {
     let mut out = String::new();
     for b in &bounds.tiers {
         let cap = match b.upper_bound {
-            Some(u) if b.complete => format!("at most {} possible", pct(u)),
+            Some(u) if bounds.complete(b.tier) => format!("at most {} possible", pct(u)),
             Some(u) => format!(
                 "at most {} possible (bound cut short by the time limit; a longer budget may lower it)",
                 pct(u)

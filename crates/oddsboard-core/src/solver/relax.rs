@@ -60,11 +60,6 @@ pub struct TierBound {
     /// (capped at their secure levels) gives every task of this tier more;
     /// `None` when no bound was found in time.
     pub upper_bound: Option<f64>,
-    /// The bisection ran all its steps, so `upper_bound` depends only on
-    /// the incident (and, below the first tier with a need, on the plan's
-    /// worst odds of the tiers above). `false`: the time limit or the
-    /// cancel flag cut it; the bound is valid but a longer run may lower it.
-    pub complete: bool,
 }
 
 /// What [`tier_bounds`] returns.
@@ -76,9 +71,19 @@ pub struct TierBounds {
     /// plan: the bound of the first tier with a counting task (nothing above
     /// it is held).
     pub overall: Option<f64>,
+    /// Tiers whose bisection the time limit or the cancel flag cut: their
+    /// bound is valid but a longer run may lower it. Every other tier's
+    /// bound depends only on the incident (and, below the first tier with a
+    /// need, on the plan's worst odds of the tiers above).
+    pub cut: Vec<Tier>,
 }
 
 impl TierBounds {
+    /// Did the bisection of `tier` run all its steps (see [`Self::cut`])?
+    pub fn complete(&self, tier: Tier) -> bool {
+        !self.cut.contains(&tier)
+    }
+
     /// The entry of `tier`, if it has open tasks.
     pub fn get(&self, tier: Tier) -> Option<&TierBound> {
         self.tiers.iter().find(|b| b.tier == tier)
@@ -97,7 +102,7 @@ impl TierBounds {
 #[derive(Debug, Clone)]
 pub struct RelaxOptions {
     /// Wall-clock time for all tiers together. Default 1.5 s. A tier whose
-    /// bisection it cuts is marked [`TierBound::complete`] `false`.
+    /// bisection it cuts is listed in [`TierBounds::cut`].
     pub time_limit: Duration,
     /// Halvings of the fixed bisection bracket z ∈ [−[`Z_SPAN`], Z_SPAN]
     /// per tier (20: z to 8·10⁻⁵). Only the halvings whose midpoint lies
@@ -717,6 +722,7 @@ pub fn tier_bounds(
             .collect()
     };
     let mut out: Vec<TierBound> = Vec::new();
+    let mut cut: Vec<Tier> = Vec::new();
     let first_counting = Tier::ALL
         .iter()
         .copied()
@@ -740,7 +746,6 @@ pub fn tier_bounds(
                 tier,
                 worst_odds: w,
                 upper_bound: Some(1.0),
-                complete: true,
             });
             continue;
         }
@@ -781,8 +786,10 @@ pub fn tier_bounds(
             worst_odds: w,
             // NaN (from inputs such as needs of 1e300) is no bound.
             upper_bound: ub.map(|l| l.exp().min(1.0)).filter(|u| !u.is_nan()),
-            complete,
         });
+        if !complete {
+            cut.push(tier);
+        }
     }
     out.sort_by_key(|b| b.tier.index());
     let overall = match first_counting {
@@ -795,6 +802,7 @@ pub fn tier_bounds(
     TierBounds {
         tiers: out,
         overall,
+        cut,
     }
 }
 
