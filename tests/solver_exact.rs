@@ -170,6 +170,95 @@ fn exact_from_poor_incumbent_reaches_brute_force_best() {
     }
 }
 
+/// A threshold search (the first f capped entries held at floors, ranked by
+/// entry f alone or by every entry from f on) started from the poorest plan
+/// that meets the floors must reach the brute-force best under the same
+/// ranking: the cover cut's level for entry f (at least the tier's tasks
+/// from f's position on reach the incumbent's entry f) may not remove it.
+/// Floors are the brute-force best key's entries lowered by 1 % and 30 %,
+/// so that plans between tie or not.
+fn check_floors_from_poor_incumbent(inc: &Incident, seed: u64) -> Result<(), TestCaseError> {
+    let plans = all_plans(inc);
+    if plans.is_empty() {
+        return Ok(());
+    }
+    let keys: Vec<ObjectiveKey> = plans.iter().map(|p| key_of(inc, p)).collect();
+    let best = (0..plans.len())
+        .reduce(|a, b| if keys[b].better_than(&keys[a]) { b } else { a })
+        .expect("plans");
+    let capped = keys[best].capped().to_vec();
+    let base = Ctx::new(inc);
+    for f in 1..capped.len() {
+        for (drop, focus) in [(0.99f64, true), (0.7, false), (0.7, true)] {
+            let floors: Vec<f64> = capped[..f].iter().map(|e| e + drop.ln()).collect();
+            let ctx = if focus {
+                base.with_focus(&floors)
+            } else {
+                base.with_floors(&floors)
+            };
+            let ranked: Vec<(usize, ObjectiveKey)> = (0..plans.len())
+                .filter(|&i| keys[i].meets(&floors))
+                .map(|i| (i, State::new(&ctx, &plans[i]).key(&ctx)))
+                .collect();
+            let Some(top) = ranked
+                .iter()
+                .reduce(|a, b| if b.1.better_than(&a.1) { b } else { a })
+            else {
+                continue;
+            };
+            let poor = ranked
+                .iter()
+                .reduce(|a, b| if a.1.better_than(&b.1) { b } else { a })
+                .expect("one plan");
+            let state = State::new(&ctx, &plans[poor.0]);
+            let key = state.key(&ctx);
+            let cancel = AtomicBool::new(false);
+            let budget = Budget::new(Duration::from_secs(20), &cancel);
+            let out = branch_and_bound(
+                &ctx,
+                Goal::Key,
+                &floors,
+                Some(Incumbent {
+                    state,
+                    key,
+                    cost: Disruption::default(),
+                }),
+                &budget,
+                u64::MAX,
+                &mut |_, _| {},
+            );
+            prop_assert!(out.complete, "seed {seed}: search not complete");
+            let found = out.best.expect("the incumbent at least");
+            prop_assert_eq!(
+                found.key.compare(&top.1),
+                Ordering::Equal,
+                "seed {}: f={} drop={} focus={}: found {:?}, best {:?}",
+                seed,
+                f,
+                drop,
+                focus,
+                found.key.entries(),
+                top.1.entries()
+            );
+        }
+    }
+    Ok(())
+}
+
+#[test]
+fn threshold_search_from_poor_incumbent_reaches_brute_force_best() {
+    for seed in 0..150 {
+        for inc in [small_incident(seed), small_distinct_incident(seed)]
+            .into_iter()
+            .flatten()
+        {
+            if let Err(e) = check_floors_from_poor_incumbent(&inc, seed) {
+                panic!("{e}");
+            }
+        }
+    }
+}
+
 /// ln odds `a` at least threshold `t`, with the key's tolerance; −∞ is met
 /// by anything.
 fn reaches(a: f64, t: f64) -> bool {

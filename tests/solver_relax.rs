@@ -274,7 +274,8 @@ tasks:
     let tasks = doc["tasks"].as_array().expect("tasks");
     for b in bounds {
         let obj = b.as_object().expect("object");
-        assert_eq!(obj.len(), 3, "tier, worst_odds, upper_bound: {b}");
+        assert_eq!(obj.len(), 4, "tier, worst_odds, upper_bound, complete: {b}");
+        assert_eq!(b["complete"], serde_json::Value::Bool(true), "{b}");
         let worst = b["worst_odds"].as_f64().expect("worst_odds");
         let tier_worst = tasks
             .iter()
@@ -303,4 +304,73 @@ tasks:
         stdout.contains("Worst stabilization ") && stdout.contains("possible"),
         "{stdout}"
     );
+}
+
+/// Reproducible bounds: the bisection runs over a fixed bracket, so the
+/// first tier's bound is the same for any plan (here a short solve's and
+/// all-reserve), and every tier's is the same twice over for one plan. The
+/// old bracket (from the plan's worst to the per-task bound) gave a
+/// different figure per plan.
+#[test]
+fn bounds_depend_on_the_input_only() {
+    let cancel = AtomicBool::new(false);
+    for (units, tasks, traits, seed) in [(30, 6, 3, 1u64), (60, 12, 3, 1)] {
+        let inc = generate(&GenerateSpec::new(units, tasks, traits).seed(seed)).expect("loads");
+        let options = SolveOptions {
+            budget: Duration::from_millis(200),
+            from_scratch: true,
+            seed,
+            ..SolveOptions::default()
+        };
+        let solved = solve(&inc, &options, &cancel, &mut |_| {}).expect("solves");
+        let empty = Placement::all_reserve(inc.units.len());
+        let a = tier_bounds(&inc, &solved.placement, &relax_options(), &cancel);
+        let b = tier_bounds(&inc, &solved.placement, &relax_options(), &cancel);
+        let c = tier_bounds(&inc, &empty, &relax_options(), &cancel);
+        assert_eq!(a, b, "{units}x{tasks}: two runs on one plan differ");
+        assert!(a.cut.is_empty(), "{units}x{tasks}: {a:?}");
+        let first = a.tiers.first().expect("a tier");
+        let first_empty = c.get(first.tier).expect("the same tier");
+        assert_eq!(
+            first.upper_bound.map(f64::to_bits),
+            first_empty.upper_bound.map(f64::to_bits),
+            "{units}x{tasks}: first tier's bound depends on the plan: {a:?} vs {c:?}"
+        );
+        assert_eq!(a.overall.map(f64::to_bits), c.overall.map(f64::to_bits));
+    }
+}
+
+/// Two `plan --json` runs of one generated incident print the same bounds
+/// (the first tier's whatever the plan; every tier's when the plans tie).
+#[test]
+fn plan_json_bounds_are_reproducible() {
+    use assert_cmd::Command;
+    let inc = Command::cargo_bin("oddsboard")
+        .expect("binary")
+        .args(["generate", "--units", "30", "--tasks", "6", "--traits", "3"])
+        .args(["--seed", "3"])
+        .output()
+        .expect("runs");
+    assert!(inc.status.success());
+    let dir = tempfile::tempdir().expect("temp dir");
+    let path = dir.path().join("generated.yaml");
+    std::fs::write(&path, &inc.stdout).expect("write");
+    let run = || {
+        let out = Command::cargo_bin("oddsboard")
+            .expect("binary")
+            .args(["plan", path.to_str().expect("path"), "--json"])
+            .args(["--from-scratch", "--seed", "1", "--budget-ms", "1500"])
+            .output()
+            .expect("runs");
+        assert!(out.status.success());
+        serde_json::from_slice::<serde_json::Value>(&out.stdout).expect("one JSON document")
+    };
+    let (a, b) = (run(), run());
+    let (ba, bb) = (&a["bounds"], &b["bounds"]);
+    assert!(ba[0]["upper_bound"].is_number(), "{ba}");
+    assert_eq!(ba[0]["complete"], serde_json::Value::Bool(true), "{ba}");
+    assert_eq!(ba[0]["upper_bound"], bb[0]["upper_bound"], "{ba} vs {bb}");
+    if a["tasks"] == b["tasks"] {
+        assert_eq!(ba, bb);
+    }
 }

@@ -108,6 +108,8 @@ struct BoundView {
     tier: &'static str,
     worst_odds: f64,
     upper_bound: Option<f64>,
+    /// The bisection ran all its steps: the same input gives the same figure.
+    complete: bool,
 }
 
 fn bound_views(bounds: &TierBounds) -> Vec<BoundView> {
@@ -118,6 +120,7 @@ fn bound_views(bounds: &TierBounds) -> Vec<BoundView> {
             tier: b.tier.as_str(),
             worst_odds: b.worst_odds,
             upper_bound: b.upper_bound,
+            complete: bounds.complete(b.tier),
         })
         .collect()
 }
@@ -505,7 +508,11 @@ fn bound_lines(bounds: &TierBounds) -> String {
     let mut out = String::new();
     for b in &bounds.tiers {
         let cap = match b.upper_bound {
-            Some(u) => format!("at most {} possible", pct(u)),
+            Some(u) if bounds.complete(b.tier) => format!("at most {} possible", pct(u)),
+            Some(u) => format!(
+                "at most {} possible (bound cut short by the time limit; a longer budget may lower it)",
+                pct(u)
+            ),
             None => "no bound known".to_string(),
         };
         out.push_str(&format!(

@@ -113,6 +113,34 @@ pub fn task_ln_upper_bound(
     may_join: &dyn Fn(UnitIdx) -> bool,
     buf: &mut Vec<(f64, f64)>,
 ) -> f64 {
+    task_ln_upper_bound_traits(incident, t, fixed, orders, may_join, buf, None)
+}
+
+/// Per trait of a task: ln of the trait's bound on Φ(z) and the variance
+/// (plus the need's) with every candidate on the task, the most it can
+/// reach. A trait that does not count has (0, 0).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct TraitBound {
+    pub ln_ub: f64,
+    pub var_max: f64,
+}
+
+/// [`task_ln_upper_bound`], also writing each trait's [`TraitBound`] into
+/// `per_trait` (resized to the traits) when given. With the task's bound
+/// −∞ from `min_units` or the no-unit rule the entries are left at default.
+pub fn task_ln_upper_bound_traits(
+    incident: &Incident,
+    t: TaskIdx,
+    fixed: &TaskTally,
+    orders: &[Vec<UnitIdx>],
+    may_join: &dyn Fn(UnitIdx) -> bool,
+    buf: &mut Vec<(f64, f64)>,
+    mut per_trait: Option<&mut Vec<TraitBound>>,
+) -> f64 {
+    if let Some(p) = per_trait.as_deref_mut() {
+        p.clear();
+        p.resize(incident.traits.len(), TraitBound::default());
+    }
     let task = &incident.tasks[t];
     let joinable = orders
         .first()
@@ -143,13 +171,18 @@ pub fn task_ln_upper_bound(
                 buf.push((r.mean, r.sd()));
             }
         }
+        let var_max = all.unit_var(k) + nv;
         let z = z_upper_bound(
             fixed.mean(k) - need.need,
             fixed.unit_var(k) + nv,
-            all.unit_var(k) + nv,
+            var_max,
             buf,
         );
-        ln += ln_phi(z);
+        let l = ln_phi(z);
+        if let Some(p) = per_trait.as_deref_mut() {
+            p[k] = TraitBound { ln_ub: l, var_max };
+        }
+        ln += l;
     }
     ln
 }

@@ -26,14 +26,25 @@
 //! a better key than the incumbent's, the cap of a tier the incumbent holds
 //! at its cap throughout and the next tier's worst entry, or a tier's first
 //! threshold), each of
-//! its traits needs z ≥ Φ⁻¹(level) (the other factors are at most 1), so on
-//! the hedge side at least need + z·√(variance now) − mean now more mean
-//! (the variance only grows as units join). Each free unit joins one task:
+//! its traits needs ln Φ(z) ≥ level − the other traits' ln bounds at the
+//! node, so on the hedge side (z ≥ 0) at least need + z·√(variance now) −
+//! mean now more mean (the variance only grows as units join), and on the
+//! gamble side (z < 0) at least need + z·√(variance with every candidate)
+//! − mean now (the variance is at most that). Each free unit joins one task:
 //! when a trait's shortfalls over those tasks exceed the mean of the free
 //! units that may join any of them, no completion reaches the levels.
+//!
+//! Inert units ([`Goal::Key`]): a unit that brings no mean and no spread to
+//! any trait a task counts is not placed there once the task holds the
+//! units its count needs (`min_units`, one if it has a need): the same plan
+//! with the unit in reserve has the same key. Such units are only tried
+//! there while the task is short of that count (they may be what lifts it
+//! from odds 0); an optimal plan without the skipped pattern always
+//! exists (move such units to reserve one at a time, each move keeps the
+//! key).
 
 use super::Budget;
-use super::bound::{ratio_orders, task_ln_upper_bound};
+use super::bound::{TraitBound, ratio_orders, task_ln_upper_bound, task_ln_upper_bound_traits};
 use super::key::{ObjectiveKey, cmp_ln, counts};
 use super::search::{Ctx, State};
 use super::stable::{Disruption, unit_disruption};
@@ -85,33 +96,49 @@ struct Search<'c, 'a> {
     aborted: bool,
     buf: Vec<(f64, f64)>,
     ub: Vec<f64>,
+    /// Per task, its traits' bounds at the node (for the cover cut).
+    trait_ub: Vec<Vec<TraitBound>>,
     /// ln level every task of a tier must reach from the thresholds (the
     /// tier's first entry), per tier.
     tier_floor: [Option<f64>; 3],
     /// Counted tasks per tier (the key's capped entries, tier by tier).
     tier_len: [usize; 3],
-    /// Per tier, (ln level, lower bound on Φ⁻¹(e^level)): the last level
-    /// inverted (one slot per tier so that tiers do not evict each other).
-    z_memo: [(f64, f64); 3],
     /// Per trait: shortfall summed over the tasks, and the tasks short.
     short: Vec<(f64, Vec<TaskIdx>)>,
     /// Per trait, the free units' mean that may go to a short task (scratch).
     cover_buf: Vec<f64>,
+    /// Per trait, a task's shortfalls at its mandatory and at the partial
+    /// level, and per trait the extra shortfalls of the partial level
+    /// (scratch of the cover cut).
+    gap_must: Vec<f64>,
+    gap_may: Vec<f64>,
+    extra: Vec<Vec<f64>>,
 }
 
-/// Lower bound on z with ln Φ(z) ≥ `level` (bisection keeping ln Φ(lo) below
-/// the level), for `level` above ln ½.
+/// Steps per unit of z of [`z_table`].
+const Z_STEPS: f64 = 128.0;
+
+/// ln Φ(z) on the grid z = −40 + i/128, i = 0..=10 240 (computed once).
+fn z_table() -> &'static [f64] {
+    static TABLE: std::sync::OnceLock<Vec<f64>> = std::sync::OnceLock::new();
+    TABLE.get_or_init(|| {
+        (0..=(80.0 * Z_STEPS) as usize)
+            .map(|i| ln_phi(-40.0 + i as f64 / Z_STEPS))
+            .collect()
+    })
+}
+
+/// A lower bound on every z with ln Φ(z) ≥ `level`: the largest grid point
+/// whose ln Φ is below the level (ln Φ increases), a hair lower; −∞ when
+/// even z = −40 reaches it (no requirement worth a cut).
 fn z_for_level(level: f64) -> f64 {
-    let (mut lo, mut hi) = (0.0f64, 40.0f64);
-    for _ in 0..64 {
-        let mid = 0.5 * (lo + hi);
-        if ln_phi(mid) < level {
-            lo = mid;
-        } else {
-            hi = mid;
-        }
+    let table = z_table();
+    // First grid point at or above the level; the one before is below it.
+    let i = table.partition_point(|&l| l < level);
+    if i == 0 || level.is_nan() {
+        return f64::NEG_INFINITY;
     }
-    (lo - 1e-9).max(0.0)
+    -40.0 + (i - 1) as f64 / Z_STEPS - 1e-9
 }
 
 fn option_index(o: Option<TaskIdx>) -> usize {
@@ -134,13 +161,14 @@ impl Search<'_, '_> {
             let free = &self.free;
             let allowed = &self.ctx.allowed_on;
             let may_join = |u: UnitIdx| free[u] && allowed[u][t];
-            self.ub[t] = task_ln_upper_bound(
+            self.ub[t] = task_ln_upper_bound_traits(
                 inc,
                 t,
                 &state.tallies[t],
                 &self.ratio,
                 &may_join,
                 &mut self.buf,
+                Some(&mut self.trait_ub[t]),
             );
         }
         if !self.thresholds_met(&self.ub) {
@@ -200,55 +228,183 @@ impl Search<'_, '_> {
         beat
     }
 
+    /// Under floors (a threshold search, [`super::search::Ctx::with_floors`]
+    /// or `with_focus`): a plan better than an incumbent that meets them
+    /// ties the floors and has its entry f = floors.len() at least the
+    /// incumbent's, so the tasks of that entry's tier from its position on
+    /// reach it: (tier, ln level, how many of the tier's tasks).
+    fn partial_level(&self) -> Option<(usize, f64, usize)> {
+        let (Goal::Key, Some(b)) = (&self.goal, &self.best) else {
+            return None;
+        };
+        let f = self.ctx.floors.len();
+        let capped = b.key.capped();
+        if f == 0 || f >= capped.len() || capped.len() != self.tier_len.iter().sum::<usize>() {
+            return None;
+        }
+        if !b.key.meets(&self.ctx.floors) {
+            return None;
+        }
+        let mut at = 0;
+        for (tier, &len) in self.tier_len.iter().enumerate() {
+            if f < at + len {
+                return Some((tier, capped[f], len - (f - at)));
+            }
+            at += len;
+        }
+        None
+    }
+
+    /// Per trait, the least mean task `t` still needs for its odds to reach
+    /// ln `level`, into `gaps`; `false` when it cannot reach it (its bound
+    /// misses the level, or it is full and short). See the module docs.
+    fn gaps_for(&self, state: &State, t: TaskIdx, level: f64, gaps: &mut [f64]) -> bool {
+        gaps.fill(0.0);
+        // Looser than the key's tolerance, so a tie is never cut.
+        let level = level - 1e-8 * level.abs().max(1.0);
+        if level.is_nan() || level == f64::NEG_INFINITY {
+            return true;
+        }
+        if self.ub[t] < level {
+            return false;
+        }
+        let inc = self.ctx.inc;
+        let tally = &state.tallies[t];
+        let bounds = &self.trait_ub[t];
+        for (k, need) in inc.tasks[t].needs.iter().enumerate() {
+            if !need.counts() {
+                continue;
+            }
+            // ln Φ(z_k) ≥ level − Σ of the other traits' bounds.
+            let others: f64 = bounds
+                .iter()
+                .enumerate()
+                .filter(|&(j, _)| j != k)
+                .map(|(_, b)| b.ln_ub)
+                .sum();
+            let z = z_for_level((level - others).min(0.0));
+            if z == f64::NEG_INFINITY {
+                continue;
+            }
+            // Hedge side: the variance only grows as units join, so the
+            // spread now is the least; gamble side: the spread with every
+            // candidate is the most.
+            let var = if z >= 0.0 {
+                tally.unit_var(k) + need.sd * need.sd
+            } else {
+                bounds[k].var_max
+            };
+            let gap = need.need + z * var.max(0.0).sqrt() - tally.mean(k);
+            if gap > 1e-9 * need.need.abs().max(1.0) {
+                if self.ctx.is_full(t, tally.count()) {
+                    return false;
+                }
+                gaps[k] = gap;
+            }
+        }
+        true
+    }
+
+    /// Would unit `u` on task `t` change nothing the key sees ([`Goal::Key`]
+    /// only)? It brings no mean and no spread to any trait the task counts,
+    /// and the task already holds what its odds need from the count
+    /// (`min_units`, one unit if it has a need): then every plan with `u`
+    /// there ties or loses to the same plan with `u` in reserve (the task's
+    /// odds are the same, the reserve only grows), so that option is
+    /// skipped. See the module docs.
+    fn inert_on(&self, state: &State, u: UnitIdx, t: TaskIdx) -> bool {
+        if !matches!(self.goal, Goal::Key) {
+            return false;
+        }
+        let inc = self.ctx.inc;
+        let task = &inc.tasks[t];
+        let has_needs = task.needs.iter().any(|n| n.counts());
+        let least = task.min_units.unwrap_or(0).max(u32::from(has_needs));
+        if state.tallies[t].count() < least {
+            return false;
+        }
+        task.needs.iter().enumerate().all(|(k, n)| {
+            let r = inc.belief(u, k);
+            !n.counts() || (r.mean == 0.0 && r.sd() == 0.0)
+        })
+    }
+
     /// The cover cut of the module docs.
     fn cover_prunes(&mut self, state: &State) -> bool {
         let inc = self.ctx.inc;
         let beat = self.levels_to_beat();
-        let half = 0.5f64.ln();
+        let partial = self.partial_level();
         for s in &mut self.short {
             s.0 = 0.0;
             s.1.clear();
         }
-        let mut any = false;
+        let mut must = std::mem::take(&mut self.gap_must);
+        let mut may = std::mem::take(&mut self.gap_may);
+        let mut extra = std::mem::take(&mut self.extra);
+        extra.iter_mut().for_each(Vec::clear);
+        let mut eligible = 0;
+        let mut cut = false;
         for t in crate::model::TaskIdx::range(inc.tasks.len()) {
             if !counts(inc, t) {
                 continue;
             }
             let tier = inc.tasks[t].tier.index();
-            let Some(level) = [self.tier_floor[tier], beat[tier]]
+            let level = [self.tier_floor[tier], beat[tier]]
                 .into_iter()
                 .flatten()
-                .reduce(f64::max)
-            else {
-                continue;
-            };
-            // Looser than the key's tolerance, so a tie is never cut.
-            let level = level - 1e-8 * level.abs().max(1.0);
-            if level.is_nan() || level <= half {
-                continue;
+                .reduce(f64::max);
+            if let Some(level) = level
+                && !self.gaps_for(state, t, level, &mut must)
+            {
+                cut = true;
+                break;
             }
-            if self.z_memo[tier].0 != level {
-                self.z_memo[tier] = (level, z_for_level(level));
+            if level.is_none() {
+                must.fill(0.0);
             }
-            let z = self.z_memo[tier].1;
-            let tally = &state.tallies[t];
-            for (k, need) in inc.tasks[t].needs.iter().enumerate() {
-                if !need.counts() {
-                    continue;
-                }
-                let sd_now = (tally.unit_var(k) + need.sd * need.sd).sqrt();
-                let gap = need.need + z * sd_now - tally.mean(k);
-                if gap > 1e-9 * need.need.abs().max(1.0) {
-                    if self.ctx.is_full(t, tally.count()) {
-                        return true;
-                    }
-                    self.short[k].0 += gap;
+            for (k, &g) in must.iter().enumerate() {
+                if g > 0.0 {
+                    self.short[k].0 += g;
                     self.short[k].1.push(t);
-                    any = true;
+                }
+            }
+            // At least `count` tasks of the tier reach the partial level:
+            // per trait, the `count` least extra shortfalls count.
+            if let Some((p_tier, p_level, _)) = partial
+                && p_tier == tier
+                && self.gaps_for(
+                    state,
+                    t,
+                    level.map_or(p_level, |l| l.max(p_level)),
+                    &mut may,
+                )
+            {
+                eligible += 1;
+                for (k, (&g, &m)) in may.iter().zip(&must).enumerate() {
+                    extra[k].push((g - m).max(0.0));
+                    if g > 0.0 && m <= 0.0 {
+                        self.short[k].1.push(t);
+                    }
                 }
             }
         }
-        if !any {
+        if !cut && let Some((_, _, count)) = partial {
+            if eligible < count {
+                cut = true;
+            } else {
+                for (k, e) in extra.iter_mut().enumerate() {
+                    e.sort_by(f64::total_cmp);
+                    self.short[k].0 += e.iter().take(count).sum::<f64>();
+                }
+            }
+        }
+        self.gap_must = must;
+        self.gap_may = may;
+        self.extra = extra;
+        if cut {
+            return true;
+        }
+        if self.short.iter().all(|s| s.0 <= 0.0) {
             return false;
         }
         let supply = &mut self.cover_buf;
@@ -360,6 +516,7 @@ impl Search<'_, '_> {
             if let Some(t) = o {
                 if self.ctx.is_full(t, state.tallies[t].count())
                     || !self.ctx.may_draw_reserve(state.reserve)
+                    || self.inert_on(state, u, t)
                 {
                     continue;
                 }
@@ -525,11 +682,14 @@ pub fn branch_and_bound(
         aborted: false,
         buf: Vec::new(),
         ub: vec![0.0; inc.tasks.len()],
+        trait_ub: vec![Vec::new(); inc.tasks.len()],
         tier_floor,
         tier_len,
-        z_memo: [(f64::NAN, 0.0); 3],
         short: vec![(0.0, Vec::new()); n_traits],
         cover_buf: vec![0.0; n_traits],
+        gap_must: vec![0.0; n_traits],
+        gap_may: vec![0.0; n_traits],
+        extra: vec![Vec::new(); n_traits],
     };
     search.dfs(&mut state, 0, 0, base_cost, budget, on_improve);
     ExactOutcome {

@@ -71,9 +71,19 @@ pub struct TierBounds {
     /// plan: the bound of the first tier with a counting task (nothing above
     /// it is held).
     pub overall: Option<f64>,
+    /// Tiers whose bisection the time limit or the cancel flag cut: their
+    /// bound is valid but a longer run may lower it. Every other tier's
+    /// bound depends only on the incident (and, below the first tier with a
+    /// need, on the plan's worst odds of the tiers above).
+    pub cut: Vec<Tier>,
 }
 
 impl TierBounds {
+    /// Did the bisection of `tier` run all its steps (see [`Self::cut`])?
+    pub fn complete(&self, tier: Tier) -> bool {
+        !self.cut.contains(&tier)
+    }
+
     /// The entry of `tier`, if it has open tasks.
     pub fn get(&self, tier: Tier) -> Option<&TierBound> {
         self.tiers.iter().find(|b| b.tier == tier)
@@ -91,9 +101,12 @@ impl TierBounds {
 /// Limits of [`tier_bounds`].
 #[derive(Debug, Clone)]
 pub struct RelaxOptions {
-    /// Wall-clock time for all tiers together. Default 1.5 s.
+    /// Wall-clock time for all tiers together. Default 1.5 s. A tier whose
+    /// bisection it cuts is listed in [`TierBounds::cut`].
     pub time_limit: Duration,
-    /// Bisection steps per tier. Default 14.
+    /// Halvings of the fixed bisection bracket z ∈ [−[`Z_SPAN`], Z_SPAN]
+    /// per tier (20: z to 8·10⁻⁵). Only the halvings whose midpoint lies
+    /// between the plan's worst and the per-task bound call the solver.
     pub steps: u32,
     /// Bound only the first tier short of its secure level (the others get
     /// `upper_bound: None`). Default false.
@@ -104,11 +117,16 @@ impl Default for RelaxOptions {
     fn default() -> Self {
         RelaxOptions {
             time_limit: Duration::from_millis(1500),
-            steps: 14,
+            steps: 20,
             first_short_only: false,
         }
     }
 }
+
+/// Half-width of the bisection bracket on the tier's z. The bracket is the
+/// same for every plan, so the midpoints tried, and the bound, depend on
+/// the incident only (docs/solver.md, "Tier bounds").
+pub const Z_SPAN: f64 = 40.0;
 
 /// Outcome of one relaxation at one target.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -117,6 +135,8 @@ enum Verdict {
     Infeasible,
     /// Feasible, or the solver could not tell.
     NotRefuted,
+    /// The time limit stopped the solver: no verdict (the bisection stops).
+    Cut,
 }
 
 /// The z with ln Φ(z) = `ln_p` (bisection: ln Φ is increasing). Clamped on
@@ -656,7 +676,7 @@ fn refute(prep: &Prep, reqs: &[Req], deadline: Instant) -> Verdict {
     let q = vec![0.0; n_var];
     let left = deadline.saturating_duration_since(Instant::now());
     if left.is_zero() {
-        return Verdict::NotRefuted;
+        return Verdict::Cut;
     }
     let settings = DefaultSettings {
         verbose: false,
@@ -671,10 +691,12 @@ fn refute(prep: &Prep, reqs: &[Req], deadline: Instant) -> Verdict {
         solver.solve();
         Some(solver.solution.status)
     }));
-    if matches!(status, Ok(Some(SolverStatus::PrimalInfeasible))) {
-        Verdict::Infeasible
-    } else {
-        Verdict::NotRefuted
+    // The iteration limit is deterministic; the time limit is not, so a
+    // solve it stops gives no verdict.
+    match status {
+        Ok(Some(SolverStatus::PrimalInfeasible)) => Verdict::Infeasible,
+        Ok(Some(SolverStatus::MaxTime)) => Verdict::Cut,
+        _ => Verdict::NotRefuted,
     }
 }
 
@@ -704,6 +726,7 @@ pub fn tier_bounds(
             .collect()
     };
     let mut out: Vec<TierBound> = Vec::new();
+    let mut cut: Vec<Tier> = Vec::new();
     let first_counting = Tier::ALL
         .iter()
         .copied()
@@ -753,7 +776,7 @@ pub fn tier_bounds(
                     a.min(b)
                 }
             });
-        let ub = bisect(
+        let (ub, complete) = bisect(
             &prep,
             &tasks,
             &held,
@@ -769,6 +792,9 @@ pub fn tier_bounds(
             // NaN (from inputs such as needs of 1e300) is no bound.
             upper_bound: ub.map(|l| l.exp().min(1.0)).filter(|u| !u.is_nan()),
         });
+        if !complete {
+            cut.push(tier);
+        }
     }
     out.sort_by_key(|b| b.tier.index());
     let overall = match first_counting {
@@ -781,11 +807,17 @@ pub fn tier_bounds(
     TierBounds {
         tiers: out,
         overall,
+        cut,
     }
 }
 
-/// Bisection on the tier's target between the plan's worst (reachable) and
-/// the cheap bound; returns ln of the bound.
+/// Bisection on the tier's z over the fixed bracket [−Z_SPAN, Z_SPAN],
+/// `options.steps` halvings; returns ln of the bound and whether every
+/// halving was decided. A midpoint at or below the plan's worst is feasible
+/// (the plan reaches it) and one at or above the per-task bound is refuted
+/// by it, so only the midpoints between call the solver: the sequence of
+/// midpoints, and so the bound, does not depend on the plan (nor on time,
+/// unless the time limit cuts the bisection, which `false` reports).
 #[allow(clippy::too_many_arguments)]
 fn bisect(
     prep: &Prep,
@@ -796,25 +828,33 @@ fn bisect(
     options: &RelaxOptions,
     deadline: Instant,
     cancel: &AtomicBool,
-) -> Option<f64> {
+) -> (Option<f64>, bool) {
     if ln_cheap.is_nan() {
-        return None;
+        return (None, true);
     }
     if ln_cheap == f64::NEG_INFINITY {
-        return Some(f64::NEG_INFINITY);
+        return (Some(f64::NEG_INFINITY), true);
     }
-    let mut z_lo = z_for_ln_odds(ln_lo.min(ln_cheap)).max(-40.0);
-    let mut z_hi = z_for_ln_odds(ln_cheap);
-    if z_hi == f64::NEG_INFINITY {
-        return Some(ln_cheap);
+    let z_cheap = z_for_ln_odds(ln_cheap);
+    if z_cheap == f64::NEG_INFINITY {
+        return (Some(ln_cheap), true);
     }
-    let mut ln_hi = ln_cheap;
+    let z_reached = z_for_ln_odds(ln_lo.min(ln_cheap));
+    let (mut z_lo, mut z_hi) = (-Z_SPAN, Z_SPAN);
     let mut reqs: Vec<Req> = Vec::new();
     for _ in 0..options.steps {
-        if cancel.load(Ordering::Relaxed) || Instant::now() >= deadline || z_hi - z_lo < 1e-4 {
-            break;
-        }
         let z_mid = 0.5 * (z_lo + z_hi);
+        if z_mid <= z_reached {
+            z_lo = z_mid;
+            continue;
+        }
+        if z_mid >= z_cheap {
+            z_hi = z_mid;
+            continue;
+        }
+        if cancel.load(Ordering::Relaxed) || Instant::now() >= deadline {
+            return (Some(ln_phi(z_hi).min(ln_cheap)), false);
+        }
         let ln_mid = ln_phi(z_mid);
         reqs.clear();
         for &t in tasks {
@@ -828,12 +868,10 @@ fn bisect(
             });
         }
         match refute(prep, &reqs, deadline) {
-            Verdict::Infeasible => {
-                z_hi = z_mid;
-                ln_hi = ln_mid.min(ln_hi);
-            }
+            Verdict::Infeasible => z_hi = z_mid,
             Verdict::NotRefuted => z_lo = z_mid,
+            Verdict::Cut => return (Some(ln_phi(z_hi).min(ln_cheap)), false),
         }
     }
-    Some(ln_hi)
+    (Some(ln_phi(z_hi).min(ln_cheap)), true)
 }
