@@ -248,10 +248,11 @@ fn speedup_in_work() {
             all[i] += total;
             work[i] += steps + discarded;
             println!(
-                "    seed {seed} t{threads}: key at epoch {} in {:.3} s; {epochs} epochs {:.3} s, {steps} steps ({changed} changed), {discarded} discarded",
+                "    seed {seed} t{threads}: key at epoch {} in {:.3} s; {epochs} epochs {:.3} s, {steps} steps ({changed} changed), {discarded} discarded; final {}",
                 p + 1,
                 trace[p].0,
-                total
+                total,
+                trace.last().map_or("-".into(), |x| fmt_key(&x.1))
             );
         }
         println!(
