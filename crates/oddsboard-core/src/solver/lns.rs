@@ -51,6 +51,7 @@ use std::collections::BTreeMap;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering as AtomicOrdering};
 use std::sync::mpsc;
+use std::time::{Duration, Instant};
 
 /// When the LNS stops on its own.
 #[derive(Debug, Clone, Copy)]
@@ -87,6 +88,11 @@ pub struct LnsOutcome {
 pub fn epoch_steps(e: u64) -> u64 {
     1u64 << e.min(4)
 }
+
+/// Steps run on the calling thread before the pool may start.
+const SOLO_STEPS: u64 = 3;
+/// The pool starts when the steps so far took at least this long each.
+const POOL_MIN_STEP: Duration = Duration::from_millis(1);
 
 /// Steps handed out ahead of the next one to commit, per thread: enough
 /// that a worker finishing early goes on instead of waiting.
@@ -267,16 +273,24 @@ pub fn lns(
         return trail.outcome(by_budget, 0);
     }
     let threads = limits.threads.max(1);
-    if threads == 1 {
-        loop {
-            let base = trail.cur.clone();
-            let mut rng = step_rng(seed, trail.step);
-            let Some(r) = lns_step(ctx, &base.state, &base.key, &mut rng, budget) else {
-                return trail.outcome(true, 0);
-            };
-            if let Flow::Stop { by_budget } = trail.commit(r, on_epoch) {
-                return trail.outcome(by_budget, 0);
-            }
+    // The first steps run here; the pool starts once steps are long enough
+    // for its hand-offs to cost little (tiny incidents never start it). The
+    // plan does not depend on when, or whether, it starts.
+    let solo = Instant::now();
+    loop {
+        if threads > 1
+            && trail.step >= SOLO_STEPS
+            && solo.elapsed().as_secs_f64() >= POOL_MIN_STEP.as_secs_f64() * trail.step as f64
+        {
+            break;
+        }
+        let base = trail.cur.clone();
+        let mut rng = step_rng(seed, trail.step);
+        let Some(r) = lns_step(ctx, &base.state, &base.key, &mut rng, budget) else {
+            return trail.outcome(true, 0);
+        };
+        if let Flow::Stop { by_budget } = trail.commit(r, on_epoch) {
+            return trail.outcome(by_budget, 0);
         }
     }
     let aborts: Vec<AtomicBool> = (0..threads).map(|_| AtomicBool::new(false)).collect();
