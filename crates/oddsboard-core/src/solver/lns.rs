@@ -51,7 +51,7 @@ use std::collections::BTreeMap;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering as AtomicOrdering};
 use std::sync::mpsc;
-use std::time::{Duration, Instant};
+use std::time::Duration;
 
 /// When the LNS stops on its own.
 #[derive(Debug, Clone, Copy)]
@@ -276,11 +276,12 @@ pub fn lns(
     // The first steps run here; the pool starts once steps are long enough
     // for its hand-offs to cost little (tiny incidents never start it). The
     // plan does not depend on when, or whether, it starts.
-    let solo = Instant::now();
+    let solo = budget.elapsed();
     loop {
         if threads > 1
             && trail.step >= SOLO_STEPS
-            && solo.elapsed().as_secs_f64() >= POOL_MIN_STEP.as_secs_f64() * trail.step as f64
+            && (budget.elapsed().saturating_sub(solo)).as_secs_f64()
+                >= POOL_MIN_STEP.as_secs_f64() * trail.step as f64
         {
             break;
         }
