@@ -187,3 +187,50 @@ fn workers_finishing_in_any_order_same_plan() {
         }
     }
 }
+
+/// The LNS itself, one thread against two and three, from the same start:
+/// the same best plan, key, work and committed steps, and some steps did
+/// change the plan (so the two-thread run had steps run ahead from a plan
+/// that then changed, which it must have stopped and run again).
+#[test]
+fn lns_commits_the_same_steps_on_any_thread_count() {
+    use oddsboard::model::Placement;
+    use oddsboard::solver::Budget;
+    use oddsboard::solver::lns::{LnsLimits, lns};
+    use oddsboard::solver::search::{Ctx, State, greedy_fill};
+    let inc = incident(300, 40, 5, 1);
+    let ctx = Ctx::new(&inc);
+    let mut start = State::new(&ctx, &Placement::all_reserve(inc.units.len()));
+    greedy_fill(&ctx, &mut start, None);
+    let never = AtomicBool::new(false);
+    let budget = Budget::new(Duration::from_secs(3600), &never);
+    let run = |threads| {
+        let limits = LnsLimits {
+            threads,
+            stale_epochs: u64::MAX,
+            max_epochs: 7,
+        };
+        lns(
+            &ctx,
+            start.clone(),
+            4,
+            &limits,
+            &budget,
+            &mut |_, _, _, _| {},
+        )
+    };
+    let one = run(1);
+    assert!(one.changed > 0, "some step changed the plan");
+    assert!(one.best_key.better_than(&start.key(&ctx)));
+    for threads in [2, 3] {
+        let r = run(threads);
+        assert_eq!(one.best.place, r.best.place, "{threads} threads");
+        assert_eq!(one.best_key.entries(), r.best_key.entries());
+        assert_eq!(
+            (one.iterations, one.steps, one.changed, one.epochs),
+            (r.iterations, r.steps, r.changed, r.epochs),
+            "{threads} threads"
+        );
+        assert!(!r.stopped_by_budget);
+    }
+}
