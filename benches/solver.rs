@@ -194,114 +194,127 @@ fn figures() {
     }
 }
 
-/// LNS steps each worker does in its first `epochs` epochs.
-fn steps_per_worker(epochs: u64) -> u64 {
-    (0..epochs).map(oddsboard::solver::lns::epoch_steps).sum()
+/// The load average over the last minute (Linux), to print beside times.
+fn load() -> String {
+    std::fs::read_to_string("/proc/loadavg")
+        .ok()
+        .and_then(|s| s.split_whitespace().next().map(str::to_string))
+        .unwrap_or_else(|| "?".into())
 }
 
-/// The both-cores speed-up counted in work, not wall time (the machine is
-/// shared). Seeds 1–5 (`ODDSBOARD_SEEDS`) run `ODDSBOARD_EPOCHS` (default 40) LNS epochs on one
-/// thread and twice that on two; the fixed key is the worst of the five
-/// one-thread results (so every one-thread run reaches it). For each run the
-/// LNS steps each worker did until its best key reached the fixed key are
-/// counted; the speed-up is the ratio of the sums over seeds (the wall-clock
-/// speed-up when each worker has a core of its own and the merge is cheap).
-/// The runs stop by epochs, never by the clock, so the counts are the same
-/// on any machine; the times beside them are not.
+/// The both-cores speed-up: wall time to a fixed key, one thread against
+/// two, straight through the LNS. For each seed (1–`ODDSBOARD_SEEDS`,
+/// default 10) the start is the greedy plan and one descent (as in a solve
+/// from scratch; not timed), then `ODDSBOARD_EPOCHS` (default 30) LNS
+/// epochs with one thread and with two. The fixed key is the worst of the
+/// one-thread final keys, so every run reaches it; each run's time to it is
+/// its first epoch report at least as good. The two runs of a seed commit
+/// the same steps (the speculative LNS), so they reach the key at the same
+/// epoch; the work beside them counts the steps run ahead and thrown away.
+/// The times depend on the machine and its load (printed).
 fn speedup_in_work() {
-    let epochs: u64 = std::env::var("ODDSBOARD_EPOCHS")
-        .ok()
-        .and_then(|x| x.parse().ok())
-        .unwrap_or(40);
-    let seeds: u64 = std::env::var("ODDSBOARD_SEEDS")
-        .ok()
-        .and_then(|x| x.parse().ok())
-        .unwrap_or(5);
-    println!("== work to a fixed key, one vs two threads (from scratch, seeds 1-{seeds}) ==");
+    use oddsboard::solver::lns::{LnsLimits, lns};
+    use oddsboard::solver::search::{Ctx, SearchLimits, State, greedy_fill, local_search};
+    let env = |k: &str, d: u64| {
+        std::env::var(k)
+            .ok()
+            .and_then(|x| x.parse().ok())
+            .unwrap_or(d)
+    };
+    let (epochs, seeds) = (env("ODDSBOARD_EPOCHS", 30), env("ODDSBOARD_SEEDS", 10));
+    println!(
+        "== time to a fixed key, one vs two threads (LNS from the first descent, seeds 1-{seeds}, {epochs} epochs) =="
+    );
+    let never = AtomicBool::new(false);
+    let budget = oddsboard::solver::Budget::new(Duration::from_secs(3600), &never);
     for (name, inc) in search_incidents() {
-        let opts = |seed: u64, threads: usize, max_epochs: u64| SolveOptions {
-            seed,
-            threads,
-            max_epochs,
-            stale_rounds: u64::MAX,
-            ..scratch(Duration::from_secs(3600))
-        };
-        // (seed, threads, reports before the LNS, every report)
-        let mut traces: Vec<(u64, usize, usize, Trace)> = Vec::new();
+        let ctx = Ctx::new(&inc);
+        // (seed, threads, [(s, key) per epoch], steps, changed, discarded, s)
+        let mut runs = Vec::new();
+        println!("  {name}: load {} before", load());
         for seed in 1..=seeds {
-            // Reports before the LNS (greedy plan, first descent): the same
-            // for every thread count; then one per epoch.
-            let offset = run_search_all(&inc, &opts(seed, 1, 0)).1.len();
+            let mut s = State::new(
+                &ctx,
+                &oddsboard::model::Placement::all_reserve(inc.units.len()),
+            );
+            greedy_fill(&ctx, &mut s, None);
+            let limits = SearchLimits {
+                stale_rounds: 1,
+                max_rounds: 1,
+            };
+            let start = local_search(&ctx, s, seed, &limits, &budget, &mut |_, _, _| {}).best;
             for threads in [1usize, 2] {
-                let max = epochs * threads as u64;
-                traces.push((
+                let mut trace: Vec<(f64, ObjectiveKey)> = Vec::new();
+                let t0 = Instant::now();
+                let out = lns(
+                    &ctx,
+                    start.clone(),
+                    seed,
+                    &LnsLimits {
+                        threads,
+                        stale_epochs: u64::MAX,
+                        max_epochs: epochs,
+                    },
+                    &budget,
+                    &mut |_, k, _, _| trace.push((t0.elapsed().as_secs_f64(), k.clone())),
+                );
+                let total = t0.elapsed().as_secs_f64();
+                runs.push((
                     seed,
                     threads,
-                    offset,
-                    run_search_all(&inc, &opts(seed, threads, max)).1,
+                    trace,
+                    out.steps,
+                    out.changed,
+                    out.discarded,
+                    total,
                 ));
             }
         }
-        let Some(target) = traces
+        let Some(target) = runs
             .iter()
-            .filter(|(_, th, _, _)| *th == 1)
-            .filter_map(|(_, _, _, t)| t.last().map(|x| x.1.clone()))
+            .filter(|r| r.1 == 1)
+            .filter_map(|r| r.2.last().map(|x| x.1.clone()))
             .min_by(|a, b| a.compare(b))
         else {
             continue;
         };
         println!("  {name}: fixed key {}", fmt_key(&target));
-        let mut sum = [0u64; 2];
-        let mut missed = [0u32; 2];
-        for (seed, threads, offset, trace) in &traces {
+        let mut to_key = [0f64; 2];
+        let mut all = [0f64; 2];
+        let mut work = [0u64; 2];
+        for (seed, threads, trace, steps, changed, discarded, total) in &runs {
+            let i = threads - 1;
             let hit = trace
                 .iter()
-                .position(|(_, k, _)| k.compare(&target) != std::cmp::Ordering::Less);
-            let i = threads - 1;
-            match hit {
-                Some(p) => {
-                    let e = (p + 1).saturating_sub(*offset) as u64;
-                    sum[i] += steps_per_worker(e);
-                    println!(
-                        "    seed {seed} t{threads}: {e} epochs, {} steps per worker, {:.2} s",
-                        steps_per_worker(e),
-                        trace[p].0
-                    );
-                }
-                None => {
-                    missed[i] += 1;
-                    println!(
-                        "    seed {seed} t{threads}: not reached in {} epochs ({})",
-                        epochs * *threads as u64,
-                        trace.last().map_or("-".into(), |x| fmt_key(&x.1))
-                    );
-                }
-            }
+                .position(|(_, k)| k.compare(&target) != std::cmp::Ordering::Less);
+            let Some(p) = hit else {
+                println!("    seed {seed} t{threads}: not reached");
+                continue;
+            };
+            to_key[i] += trace[p].0;
+            all[i] += total;
+            work[i] += steps + discarded;
+            println!(
+                "    seed {seed} t{threads}: key at epoch {} in {:.3} s; {epochs} epochs {:.3} s, {steps} steps ({changed} changed), {discarded} discarded; final {}",
+                p + 1,
+                trace[p].0,
+                total,
+                trace.last().map_or("-".into(), |x| fmt_key(&x.1))
+            );
         }
         println!(
-            "  {name}: steps per worker to the key, sum over seeds: 1 thread {}, 2 threads {} ({} missed): work speed-up {:.2}x",
-            sum[0],
-            sum[1],
-            missed[1],
-            sum[0] as f64 / sum[1].max(1) as f64
+            "  {name}: time to the key, sum over seeds: 1 thread {:.2} s, 2 threads {:.2} s: speed-up {:.2}x; all {epochs} epochs {:.2} s / {:.2} s: {:.2}x; steps run {} / {} (load {} after)",
+            to_key[0],
+            to_key[1],
+            to_key[0] / to_key[1].max(1e-9),
+            all[0],
+            all[1],
+            all[0] / all[1].max(1e-9),
+            work[0],
+            work[1],
+            load()
         );
     }
-}
-
-/// (elapsed s, best key, improved) of every progress report.
-type Trace = Vec<(f64, ObjectiveKey, bool)>;
-
-/// Like [`run_search`], every progress report (improved or not): in the
-/// LNS one per epoch.
-fn run_search_all(inc: &Incident, opts: &SolveOptions) -> (SolveReport, Trace) {
-    let mut trace = Vec::new();
-    let r = match solve(inc, opts, &AtomicBool::new(false), &mut |p| {
-        trace.push((p.elapsed.as_secs_f64(), p.key.clone(), p.improved));
-    }) {
-        Ok(r) => r,
-        Err(e) => panic!("infeasible: {e}"),
-    };
-    (r, trace)
 }
 
 /// How long a solve takes to return after its cancel flag is raised, two

@@ -37,9 +37,10 @@ pub struct Args {
     /// Seed of the solver's random choices (same seed, same plan).
     #[arg(long, default_value_t = 0)]
     pub seed: u64,
-    /// Search threads (default: the cores available). The plan depends on
-    /// the seed and on this number, not on the machine's speed, when the
-    /// search ends before its budget.
+    /// Search threads (default: the cores available). They change how soon
+    /// a plan is found, not which: the plan depends on the seed, not on
+    /// this number or the machine's speed, when the search ends before its
+    /// budget.
     #[arg(long, value_parser = clap::value_parser!(u16).range(1..=256))]
     pub threads: Option<u16>,
     /// Slack of the rule: no task's odds (capped at its tier's secure level)

@@ -1,6 +1,6 @@
-//! Large-neighbourhood search (LNS) around the bottleneck, run by one or
-//! more workers in epochs of fixed work, so that a seed and a thread count
-//! always give the same plan.
+//! Large-neighbourhood search (LNS) around the bottleneck: one sequence of
+//! steps, run by one thread or, speculatively, by several, so that a seed
+//! gives the same plan whatever the thread count.
 //!
 //! One LNS step: pick a bottleneck task f (the worst, sometimes one of the
 //! next few), release its units and those of a few tasks holding units f
@@ -18,44 +18,46 @@
 //! for seconds. Releasing the bottleneck together with the tasks holding its
 //! useful units lets a whole group of units change hands at once.
 //!
-//! **Both cores.** Epoch e is `epoch_steps(e)` rounds. In a round each of
-//! `threads` workers does one step from the same plan (worker 0 on the
-//! calling thread, the others in a pool that lives as long as the search,
-//! so no thread is started per round), favouring a different bottleneck
-//! (worker w picks the w-th worst task half the time), and [`merge`] makes
-//! the next round's plan: the best key leads, and each other worker that
-//! improved on the round's plan is grafted on when its changes touch other
-//! units and other tasks and the joined plan is better still. Syncing
-//! after every step gives each round two draws at the next improvement;
-//! syncing after 16 steps each let the second worker's trajectory run on
-//! from a plan the merge then threw away (docs/performance.md has the
-//! work counts of both).
+//! **The sequence.** Step n starts from the plan left by step n − 1 and
+//! draws from its own generator, seeded by (seed, n); its result is a
+//! function of those two alone. Most steps find nothing better and leave the
+//! plan as it was, so step n + 1 usually starts from the same plan as step
+//! n. Epoch e is `epoch_steps(e)` steps (progress and the stop rules are
+//! checked at epoch ends).
 //!
-//! **Determinism.** Worker w of epoch e draws from one generator seeded by
-//! (seed, e, w) for all its steps of that epoch; a step reads only the
-//! round's plan, and the merge takes the workers' plans in worker order
-//! (the lowest worker on ties), whatever order they finished in. The clock
-//! and the cancel flag only decide how many epochs complete; an epoch cut
-//! short is dropped whole. So the plan is a function of the incident, the
-//! seed, the thread count and the number of completed epochs, and when the
-//! search ends on its own (`stale_epochs` or `max_epochs`) it does not
-//! depend on the machine at all. One thread follows the same trajectory as
-//! before the pool (one generator per epoch, steps accepted when not worse).
+//! **Both cores: speculation.** With several threads, workers in a pool run
+//! steps n, n + 1, … ahead, each from the plan as it stands when the step is
+//! handed out, and the calling thread commits their results in step order.
+//! A result is used only if its start plan is still the current one; when a
+//! committed step changes the plan, every step handed out from the old plan
+//! is stopped (its own abort flag) and handed out again from the new one.
+//! So every committed step is exactly the step the one-thread run makes, and
+//! the plan after e epochs is the same for every thread count; the threads
+//! only change how soon it is reached (a second draw per round, as the
+//! earlier design did, caps the gain below 2× even with idle cores: see
+//! docs/performance.md). The clock and the cancel flag only decide how many
+//! epochs complete; an epoch cut short is dropped whole. When the search
+//! ends on its own (`stale_epochs` or `max_epochs`) the plan does not depend
+//! on the machine or the thread count at all.
 
 use super::Budget;
 use super::key::{ObjectiveKey, TaskChange, cmp_ln, compare_change_capped};
 use super::search::{Ctx, State, apply_step, best_step_within, ln_odds_ignoring_minimum};
 use crate::model::{TaskIdx, UnitIdx};
-use crate::rules;
 use rand::rngs::Xoshiro256PlusPlus;
 use rand::{RngExt, SeedableRng};
 use std::cmp::Ordering;
+use std::collections::BTreeMap;
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, Ordering as AtomicOrdering};
 use std::sync::mpsc;
+use std::time::Duration;
 
 /// When the LNS stops on its own.
 #[derive(Debug, Clone, Copy)]
 pub struct LnsLimits {
-    /// Workers per epoch (at least 1); 1 runs on the calling thread.
+    /// Threads running steps (at least 1); 1 runs on the calling thread.
+    /// It changes the speed, never the plan.
     pub threads: usize,
     /// Stop after this many epochs in a row without a better plan.
     pub stale_epochs: u64,
@@ -66,19 +68,35 @@ pub struct LnsLimits {
 pub struct LnsOutcome {
     pub best: State,
     pub best_key: ObjectiveKey,
+    /// Moves scored by the committed steps of the completed epochs (the
+    /// same for every thread count).
     pub iterations: u64,
-    /// Epochs completed (and merged).
+    /// Epochs completed.
     pub epochs: u64,
-    /// Epochs whose next plan joined the changes of two or more workers.
-    pub merged: u64,
+    /// Steps of the completed epochs.
+    pub steps: u64,
+    /// Of those, the steps that changed the plan.
+    pub changed: u64,
+    /// Steps run ahead and thrown away (started from a plan a committed
+    /// step then changed, or past the end): the price of speculation. It
+    /// depends on timing, unlike everything else here.
+    pub discarded: u64,
     pub stopped_by_budget: bool,
 }
 
-/// Steps each worker does in epoch `e`: short first epochs keep small
-/// budgets useful, longer ones keep the threads' start-up cost small.
+/// Steps in epoch `e`: short first epochs keep small budgets useful.
 pub fn epoch_steps(e: u64) -> u64 {
     1u64 << e.min(4)
 }
+
+/// Steps run on the calling thread before the pool may start.
+const SOLO_STEPS: u64 = 3;
+/// The pool starts when the steps so far took at least this long each.
+const POOL_MIN_STEP: Duration = Duration::from_millis(1);
+
+/// Steps handed out ahead of the next one to commit, per thread: enough
+/// that a worker finishing early goes on instead of waiting.
+const AHEAD_PER_THREAD: u64 = 2;
 
 /// The bottlenecks a descent step looks at (the worst few).
 const DESCENT_TASKS: usize = 3;
@@ -89,16 +107,154 @@ const DESCENT_STEPS: usize = 64;
 const CHAIN_HEADS: usize = 6;
 
 /// SplitMix64 finaliser (Steele, Lea & Flood, "Fast splittable
-/// pseudorandom number generators", OOPSLA 2014) over (seed, epoch, worker):
-/// well-spread, independent-looking seeds for the workers.
-pub fn worker_seed(seed: u64, epoch: u64, worker: u64) -> u64 {
+/// pseudorandom number generators", OOPSLA 2014) over (seed, a, b):
+/// well-spread, independent-looking seeds.
+pub fn worker_seed(seed: u64, a: u64, b: u64) -> u64 {
     let mut z = seed
         ^ 0x6c6e_735f_7365_6564
-        ^ epoch.wrapping_mul(0x9E37_79B9_7F4A_7C15)
-        ^ worker.wrapping_mul(0xD1B5_4A32_D192_ED03);
+        ^ a.wrapping_mul(0x9E37_79B9_7F4A_7C15)
+        ^ b.wrapping_mul(0xD1B5_4A32_D192_ED03);
     z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
     z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
     z ^ (z >> 31)
+}
+
+/// The generator of step `n`: the step's draws depend on nothing else.
+fn step_rng(seed: u64, n: u64) -> Xoshiro256PlusPlus {
+    Xoshiro256PlusPlus::seed_from_u64(worker_seed(seed, n, 0))
+}
+
+/// A plan and its key, shared read-only by the steps that start from it.
+struct Base {
+    state: State,
+    key: ObjectiveKey,
+}
+
+/// One step's result.
+struct Worker {
+    state: State,
+    key: ObjectiveKey,
+    iterations: u64,
+}
+
+/// The committed sequence: the current plan, the epoch it is in, the best
+/// plan of the completed epochs and the stop rules. Both the one-thread
+/// loop and the pool feed it the same results in the same order.
+struct Trail<'c, 'b> {
+    ctx: &'c Ctx<'c>,
+    limits: &'c LnsLimits,
+    budget: &'c Budget<'b>,
+    cur: Arc<Base>,
+    /// Bumped whenever `cur` changes: a step's result is used only if it
+    /// started from this version.
+    version: u64,
+    /// The next step to commit.
+    step: u64,
+    epoch: u64,
+    /// The step that ends the current epoch.
+    epoch_end: u64,
+    best: State,
+    best_key: ObjectiveKey,
+    stale: u64,
+    iterations: u64,
+    e_iterations: u64,
+    changed: u64,
+    e_changed: u64,
+    steps: u64,
+}
+
+/// Whether the search goes on, and if not, whether the budget ended it.
+enum Flow {
+    Go,
+    Stop { by_budget: bool },
+}
+
+impl<'c, 'b> Trail<'c, 'b> {
+    fn new(ctx: &'c Ctx<'c>, start: State, limits: &'c LnsLimits, budget: &'c Budget<'b>) -> Self {
+        let state = State::new(ctx, &start.placement());
+        let key = state.key(ctx);
+        Trail {
+            ctx,
+            limits,
+            budget,
+            best: state.clone(),
+            best_key: key.clone(),
+            cur: Arc::new(Base { state, key }),
+            version: 0,
+            step: 0,
+            epoch: 0,
+            epoch_end: epoch_steps(0),
+            stale: 0,
+            iterations: 0,
+            e_iterations: 0,
+            changed: 0,
+            e_changed: 0,
+            steps: 0,
+        }
+    }
+
+    /// Whether another epoch may start.
+    fn check(&self) -> Flow {
+        if self.stale >= self.limits.stale_epochs || self.epoch >= self.limits.max_epochs {
+            return Flow::Stop { by_budget: false };
+        }
+        if self.budget.exhausted() || self.ctx.movable.is_empty() {
+            return Flow::Stop {
+                by_budget: self.budget.exhausted(),
+            };
+        }
+        Flow::Go
+    }
+
+    /// Commits the result of step `self.step` (started from the current
+    /// version); at an epoch's end reports it and checks the stop rules.
+    fn commit(
+        &mut self,
+        r: Worker,
+        on_epoch: &mut dyn FnMut(&State, &ObjectiveKey, u64, bool),
+    ) -> Flow {
+        self.e_iterations += r.iterations;
+        if r.state.place != self.cur.state.place {
+            self.cur = Arc::new(Base {
+                state: r.state,
+                key: r.key,
+            });
+            self.version += 1;
+            self.e_changed += 1;
+        }
+        self.step += 1;
+        if self.step < self.epoch_end {
+            return Flow::Go;
+        }
+        self.epoch += 1;
+        self.epoch_end += epoch_steps(self.epoch);
+        self.iterations += std::mem::take(&mut self.e_iterations);
+        self.changed += std::mem::take(&mut self.e_changed);
+        self.steps = self.step;
+        let improved = self.cur.key.better_than(&self.best_key);
+        if improved {
+            self.best = self.cur.state.clone();
+            self.best_key = self.cur.key.clone();
+            self.stale = 0;
+        } else {
+            self.stale += 1;
+        }
+        on_epoch(&self.best, &self.best_key, self.iterations, improved);
+        self.check()
+    }
+
+    fn outcome(self, stopped_by_budget: bool, discarded: u64) -> LnsOutcome {
+        LnsOutcome {
+            best: self.best,
+            best_key: self.best_key,
+            iterations: self.iterations,
+            epochs: self.epoch,
+            steps: self.steps,
+            changed: self.changed,
+            discarded,
+            stopped_by_budget,
+        }
+    }
 }
 
 /// Runs the LNS from `start` until the limits, the budget or the cancel
@@ -112,253 +268,160 @@ pub fn lns(
     budget: &Budget,
     on_epoch: &mut dyn FnMut(&State, &ObjectiveKey, u64, bool),
 ) -> LnsOutcome {
-    let threads = limits.threads.max(1);
-    if threads == 1 {
-        return run_epochs(ctx, start, seed, limits, budget, on_epoch, &mut |_| {
-            Vec::new()
-        });
+    let mut trail = Trail::new(ctx, start, limits, budget);
+    if let Flow::Stop { by_budget } = trail.check() {
+        return trail.outcome(by_budget, 0);
     }
-    // A pool for the whole search: workers 1.. live as long as it, take
-    // one round's start plan at a time and send back their step's plan
-    // tagged with their number; worker 0 is the calling thread.
+    let threads = limits.threads.max(1);
+    // The first steps run here; the pool starts once steps are long enough
+    // for its hand-offs to cost little (tiny incidents never start it). The
+    // plan does not depend on when, or whether, it starts.
+    let solo = budget.elapsed();
+    loop {
+        if threads > 1
+            && trail.step >= SOLO_STEPS
+            && (budget.elapsed().saturating_sub(solo)).as_secs_f64()
+                >= POOL_MIN_STEP.as_secs_f64() * trail.step as f64
+        {
+            break;
+        }
+        let base = trail.cur.clone();
+        let mut rng = step_rng(seed, trail.step);
+        let Some(r) = lns_step(ctx, &base.state, &base.key, &mut rng, budget) else {
+            return trail.outcome(true, 0);
+        };
+        if let Flow::Stop { by_budget } = trail.commit(r, on_epoch) {
+            return trail.outcome(by_budget, 0);
+        }
+    }
+    let aborts: Vec<AtomicBool> = (0..threads).map(|_| AtomicBool::new(false)).collect();
     std::thread::scope(|scope| {
-        let (done_tx, done_rx) = mpsc::channel::<(usize, Option<Worker>)>();
-        let mut jobs = Vec::with_capacity(threads - 1);
-        for w in 1..threads {
+        let (done_tx, done_rx) = mpsc::channel::<Done>();
+        let mut jobs = Vec::with_capacity(threads);
+        for (w, abort) in aborts.iter().enumerate() {
             let (tx, rx) = mpsc::channel::<Job>();
             jobs.push(tx);
             let done_tx = done_tx.clone();
-            scope.spawn(move || helper(ctx, seed, w, budget, &rx, &done_tx));
+            let wb = budget.with_abort(abort);
+            scope.spawn(move || helper(ctx, seed, w, &wb, &rx, &done_tx));
         }
         drop(done_tx);
-        run_epochs(ctx, start, seed, limits, budget, on_epoch, &mut |job| {
-            let mut out: Vec<Option<Worker>> = (1..threads).map(|_| None).collect();
-            let sent: Vec<bool> = jobs.iter().map(|tx| tx.send(job.clone()).is_ok()).collect();
-            let mut waiting = sent.iter().filter(|&&x| x).count();
-            while waiting > 0 {
-                // A worker gone (it panicked) counts as cut short.
-                let Ok((w, r)) = done_rx.recv() else { break };
-                out[w - 1] = r;
-                waiting -= 1;
-            }
-            out
-        })
-        // `jobs` drops here: the workers' channels close and they end.
+        let (by_budget, discarded) = pool(&mut trail, &jobs, &done_rx, &aborts, on_epoch);
+        // Stop whatever still runs; `jobs` drops here, so the workers end.
+        for a in &aborts {
+            a.store(true, AtomicOrdering::Relaxed);
+        }
+        drop(jobs);
+        trail.outcome(by_budget, discarded)
     })
 }
 
-/// One round's start, sent to every worker.
-#[derive(Clone)]
+/// One step handed to a worker.
 struct Job {
-    epoch: u64,
-    base: State,
-    base_key: ObjectiveKey,
+    step: u64,
+    version: u64,
+    base: Arc<Base>,
 }
 
-/// A pool worker: one LNS step per job from the job's plan, its generator
-/// seeded by (seed, epoch, worker) at the first job of each epoch.
+/// (worker, step, version, result; `None` when cut short).
+type Done = (usize, u64, u64, Option<Worker>);
+
+/// The calling thread's side of the pool: hands out steps ahead of the
+/// next to commit, commits results in step order, and re-issues the steps
+/// whose start plan a commit changed. Returns (stopped by the budget,
+/// steps discarded).
+fn pool(
+    trail: &mut Trail,
+    jobs: &[mpsc::Sender<Job>],
+    done: &mpsc::Receiver<Done>,
+    aborts: &[AtomicBool],
+    on_epoch: &mut dyn FnMut(&State, &ObjectiveKey, u64, bool),
+) -> (bool, u64) {
+    let ahead = AHEAD_PER_THREAD * jobs.len() as u64;
+    // (step, version) each worker runs.
+    let mut busy: Vec<Option<(u64, u64)>> = vec![None; jobs.len()];
+    // Results from the current version, by step.
+    let mut ready: BTreeMap<u64, Worker> = BTreeMap::new();
+    let mut next = trail.step;
+    let mut discarded = 0u64;
+    loop {
+        for (w, tx) in jobs.iter().enumerate() {
+            if busy[w].is_some() || next >= trail.step + ahead {
+                continue;
+            }
+            // The worker is idle: it reads its flag only during a job.
+            aborts[w].store(false, AtomicOrdering::Relaxed);
+            let job = Job {
+                step: next,
+                version: trail.version,
+                base: trail.cur.clone(),
+            };
+            if tx.send(job).is_err() {
+                // A worker gone: it can no longer take steps.
+                return (true, discarded);
+            }
+            busy[w] = Some((next, trail.version));
+            next += 1;
+        }
+        // A worker gone (it panicked) counts as cut short.
+        let Ok((w, step, version, out)) = done.recv() else {
+            return (true, discarded);
+        };
+        busy[w] = None;
+        if version != trail.version {
+            discarded += 1;
+            continue;
+        }
+        let Some(r) = out else {
+            // The budget or the cancel flag: the epoch is dropped whole.
+            return (true, discarded);
+        };
+        ready.insert(step, r);
+        while let Some(r) = ready.remove(&trail.step) {
+            let version = trail.version;
+            let flow = trail.commit(r, on_epoch);
+            if let Flow::Stop { by_budget } = flow {
+                discarded += ready.len() as u64 + busy.iter().flatten().count() as u64;
+                return (by_budget, discarded);
+            }
+            if trail.version != version {
+                // Every step run ahead started from the old plan.
+                discarded += ready.len() as u64;
+                ready.clear();
+                for (w, b) in busy.iter().enumerate() {
+                    if b.is_some() {
+                        aborts[w].store(true, AtomicOrdering::Relaxed);
+                    }
+                }
+                next = trail.step;
+            }
+        }
+    }
+}
+
+/// A pool worker: one LNS step per job from the job's plan, with the
+/// generator of the job's step.
 fn helper(
     ctx: &Ctx,
     seed: u64,
     worker: usize,
     budget: &Budget,
     jobs: &mpsc::Receiver<Job>,
-    done: &mpsc::Sender<(usize, Option<Worker>)>,
+    done: &mpsc::Sender<Done>,
 ) {
-    let mut rng: Option<(u64, Xoshiro256PlusPlus)> = None;
     while let Ok(job) = jobs.recv() {
-        if rng.as_ref().is_none_or(|(e, _)| *e != job.epoch) {
-            let s = worker_seed(seed, job.epoch, worker as u64);
-            rng = Some((job.epoch, Xoshiro256PlusPlus::seed_from_u64(s)));
-        }
-        let Some((_, r)) = rng.as_mut() else { break };
+        let mut rng = step_rng(seed, job.step);
         // A panic is reported as a step cut short, so the caller never
         // waits for a result that will not come.
         let out = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-            lns_step(ctx, &job.base, &job.base_key, r, worker, budget)
+            lns_step(ctx, &job.base.state, &job.base.key, &mut rng, budget)
         }))
         .ok()
         .flatten();
-        if done.send((worker, out)).is_err() {
+        if done.send((worker, job.step, job.version, out)).is_err() {
             break;
         }
     }
-}
-
-/// The epochs, each `epoch_steps(e)` rounds; in a round every worker does
-/// one LNS step from the round's start (worker 0 here, the others through
-/// `others`, which returns their results in worker order) and [`merge`]
-/// makes the next round's start.
-fn run_epochs(
-    ctx: &Ctx,
-    start: State,
-    seed: u64,
-    limits: &LnsLimits,
-    budget: &Budget,
-    on_epoch: &mut dyn FnMut(&State, &ObjectiveKey, u64, bool),
-    others: &mut dyn FnMut(&Job) -> Vec<Option<Worker>>,
-) -> LnsOutcome {
-    let mut cur = State::new(ctx, &start.placement());
-    let mut cur_key = cur.key(ctx);
-    let mut best = cur.clone();
-    let mut best_key = cur_key.clone();
-    let mut iterations = 0u64;
-    let mut stale = 0u64;
-    let mut epoch = 0u64;
-    let mut merged = 0u64;
-    let stopped_by_budget = 'epochs: loop {
-        if stale >= limits.stale_epochs || epoch >= limits.max_epochs {
-            break false;
-        }
-        if budget.exhausted() || ctx.movable.is_empty() {
-            break budget.exhausted();
-        }
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(worker_seed(seed, epoch, 0));
-        let (mut e_cur, mut e_key) = (cur.clone(), cur_key.clone());
-        let (mut e_iterations, mut e_merged) = (0u64, 0u64);
-        for _ in 0..epoch_steps(epoch) {
-            let job = Job {
-                epoch,
-                base: e_cur,
-                base_key: e_key,
-            };
-            let rest = others(&job);
-            let mine = lns_step(ctx, &job.base, &job.base_key, &mut rng, 0, budget);
-            let results: Vec<Option<Worker>> = std::iter::once(mine).chain(rest).collect();
-            if results.iter().any(Option::is_none) {
-                // Cut short by the budget or the cancel flag: the epoch is
-                // dropped whole.
-                break 'epochs true;
-            }
-            let workers: Vec<Worker> = results.into_iter().flatten().collect();
-            e_iterations += workers.iter().map(|r| r.iterations).sum::<u64>();
-            let Some(next) = merge(ctx, &job.base, workers) else {
-                break 'epochs false;
-            };
-            e_merged += u64::from(next.grafted);
-            e_cur = next.state;
-            e_key = next.key;
-        }
-        epoch += 1;
-        iterations += e_iterations;
-        merged += e_merged;
-        cur = e_cur;
-        cur_key = e_key;
-        let improved = cur_key.better_than(&best_key);
-        if improved {
-            best = cur.clone();
-            best_key = cur_key.clone();
-            stale = 0;
-        } else {
-            stale += 1;
-        }
-        on_epoch(&best, &best_key, iterations, improved);
-    };
-    LnsOutcome {
-        best,
-        best_key,
-        iterations,
-        epochs: epoch,
-        merged,
-        stopped_by_budget,
-    }
-}
-
-struct Worker {
-    state: State,
-    key: ObjectiveKey,
-    iterations: u64,
-}
-
-/// An epoch's next plan.
-struct Next {
-    state: State,
-    key: ObjectiveKey,
-    /// It joins the changes of two or more workers.
-    grafted: bool,
-}
-
-/// The epoch's next plan from the workers' plans, in worker order: the best
-/// key (the lowest worker on ties), then each other worker that improved on
-/// `base` grafted on when its changes touch units and tasks that none of
-/// the plan's changes touch, the reserve stays at its minimum, and the key
-/// gets better. Raising the bottleneck and, in another worker, the next
-/// worst task are then both kept: the second worker's work is not lost.
-fn merge(ctx: &Ctx, base: &State, workers: Vec<Worker>) -> Option<Next> {
-    let inc = ctx.inc;
-    let base_key = base.key(ctx);
-    let lead = (0..workers.len()).fold(None, |b: Option<usize>, i| match b {
-        Some(j) if !workers[i].key.better_than(&workers[j].key) => Some(j),
-        _ => Some(i),
-    })?;
-    let diff = |s: &State| -> Vec<UnitIdx> {
-        ctx.movable
-            .iter()
-            .copied()
-            .filter(|&u| s.place[u] != base.place[u])
-            .collect()
-    };
-    let mut unit_used = vec![false; inc.units.len()];
-    let mut task_used = vec![false; inc.tasks.len()];
-    let mark = |d: &[UnitIdx], s: &State, unit_used: &mut [bool], task_used: &mut [bool]| {
-        for &u in d {
-            unit_used[u.index()] = true;
-            for t in [s.place[u], base.place[u]].into_iter().flatten() {
-                task_used[t.index()] = true;
-            }
-        }
-    };
-    let mut next = Next {
-        state: workers[lead].state.clone(),
-        key: workers[lead].key.clone(),
-        grafted: false,
-    };
-    if !next.key.better_than(&base_key) {
-        return Some(next);
-    }
-    mark(
-        &diff(&next.state),
-        &next.state,
-        &mut unit_used,
-        &mut task_used,
-    );
-    for (i, w) in workers.iter().enumerate() {
-        if i == lead || !w.key.better_than(&base_key) {
-            continue;
-        }
-        let d = diff(&w.state);
-        let clash = d.iter().any(|&u| {
-            unit_used[u.index()]
-                || [w.state.place[u], base.place[u]]
-                    .into_iter()
-                    .flatten()
-                    .any(|t| task_used[t.index()])
-        });
-        if clash {
-            continue;
-        }
-        let mut p = next.state.placement();
-        for &u in &d {
-            p.0[u.index()] = w.state.place[u];
-        }
-        // Task counts: each touched task is as in one feasible plan.
-        let cand = State::new(ctx, &p);
-        if cand.reserve < next.state.reserve.min(w.state.reserve)
-            && rules::reserve_short(inc, cand.reserve as usize)
-        {
-            continue;
-        }
-        let k = cand.key(ctx);
-        if k.better_than(&next.key) {
-            mark(&d, &w.state, &mut unit_used, &mut task_used);
-            next = Next {
-                state: cand,
-                key: k,
-                grafted: true,
-            };
-        }
-    }
-    Some(next)
 }
 
 /// One LNS step from `start`: the step's plan when its key is not worse,
@@ -368,12 +431,11 @@ fn lns_step(
     start: &State,
     start_key: &ObjectiveKey,
     rng: &mut Xoshiro256PlusPlus,
-    worker: usize,
     budget: &Budget,
 ) -> Option<Worker> {
     let mut iterations = 0u64;
     let mut s = start.clone();
-    release(ctx, &mut s, worker, rng);
+    release(ctx, &mut s, rng);
     // Any part cut by the budget makes the step (and the epoch) depend on
     // the clock: drop it.
     if !refill(ctx, &mut s, rng, &mut iterations, budget)
@@ -402,17 +464,16 @@ fn lns_step(
 
 /// Sends the units of a bottleneck task, and those of a few tasks holding
 /// units it accepts, to reserve.
-fn release(ctx: &Ctx, s: &mut State, worker: usize, rng: &mut Xoshiro256PlusPlus) {
+fn release(ctx: &Ctx, s: &mut State, rng: &mut Xoshiro256PlusPlus) {
     let inc = ctx.inc;
     let order = s.bottlenecks(ctx);
     if order.is_empty() {
         return;
     }
     let top = order.len().min(4);
-    // Worker w favours the w-th worst task, so that two workers tend to
-    // raise different tasks and [`merge`] can keep both.
+    // The worst task half the time, else one of the next few.
     let f = if rng.random_bool(0.5) {
-        order[worker % top]
+        order[0]
     } else {
         order[rng.random_range(0..top)]
     };

@@ -227,6 +227,9 @@ pub struct Budget<'a> {
     start: Instant,
     limit: Duration,
     cancel: &'a AtomicBool,
+    /// A second flag that ends this budget alone (not `cancelled`): the
+    /// parallel LNS stops a step whose start plan is out of date.
+    abort: Option<&'a AtomicBool>,
 }
 
 impl<'a> Budget<'a> {
@@ -235,6 +238,7 @@ impl<'a> Budget<'a> {
             start: Instant::now(),
             limit,
             cancel,
+            abort: None,
         }
     }
     /// A budget ending `fraction` of the way through this one.
@@ -243,13 +247,28 @@ impl<'a> Budget<'a> {
             start: self.start,
             limit: self.limit.mul_f64(fraction),
             cancel: self.cancel,
+            abort: self.abort,
+        }
+    }
+    /// This budget, also ended when `abort` is raised.
+    fn with_abort<'b>(&self, abort: &'b AtomicBool) -> Budget<'b>
+    where
+        'a: 'b,
+    {
+        Budget {
+            start: self.start,
+            limit: self.limit,
+            cancel: self.cancel,
+            abort: Some(abort),
         }
     }
     pub fn cancelled(&self) -> bool {
         self.cancel.load(AtomicOrdering::Relaxed)
     }
     pub fn exhausted(&self) -> bool {
-        self.cancelled() || self.start.elapsed() >= self.limit
+        self.cancelled()
+            || self.abort.is_some_and(|a| a.load(AtomicOrdering::Relaxed))
+            || self.start.elapsed() >= self.limit
     }
     pub fn elapsed(&self) -> Duration {
         self.start.elapsed()
