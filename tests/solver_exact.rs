@@ -25,7 +25,9 @@ use std::sync::atomic::AtomicBool;
 use std::time::Duration;
 
 mod small_incidents;
-use small_incidents::{all_plans, key_of, small_distinct_incident, small_incident};
+use small_incidents::{
+    all_plans, brute_thresholds, key_of, meets, small_distinct_incident, small_incident,
+};
 
 fn options(from_scratch: bool) -> SolveOptions {
     SolveOptions {
@@ -259,16 +261,6 @@ fn threshold_search_from_poor_incumbent_reaches_brute_force_best() {
     }
 }
 
-/// ln odds `a` at least threshold `t`, with the key's tolerance; −∞ is met
-/// by anything.
-fn reaches(a: f64, t: f64) -> bool {
-    t == f64::NEG_INFINITY || a >= t - 1e-10 * t.abs().max(1.0)
-}
-
-fn meets(k: &ObjectiveKey, thr: &[f64]) -> bool {
-    k.capped().iter().zip(thr).all(|(a, t)| reaches(*a, *t))
-}
-
 /// (withdrawals, dispatches) from the ground, counted here from the
 /// definitions: a withdrawal takes a unit off an open task it is on; a
 /// dispatch sends a unit to a task from reserve (or a closed task).
@@ -295,21 +287,7 @@ fn check_rule(
     slack: f64,
     seed: u64,
 ) -> Result<(), TestCaseError> {
-    let ln_keep = (1.0 - slack).ln();
-    let n = best.capped().len();
-    let mut thr: Vec<f64> = Vec::new();
-    for e in 0..n {
-        let b = keys
-            .iter()
-            .filter(|k| meets(k, &thr))
-            .map(|k| k.capped()[e])
-            .fold(f64::NEG_INFINITY, f64::max);
-        thr.push(if b == f64::NEG_INFINITY {
-            b
-        } else {
-            b + ln_keep
-        });
-    }
+    let thr = brute_thresholds(keys, slack);
     let acceptable: Vec<usize> = (0..plans.len())
         .filter(|&i| meets(&keys[i], &thr))
         .collect();

@@ -13,6 +13,7 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::Duration;
 
 mod small_incidents;
+use small_incidents::{brute_thresholds, meets};
 
 /// A generated incident with a solved plan on the ground (a fixed amount of
 /// search: the same ground on every machine), then the placed unit with the
@@ -161,36 +162,6 @@ fn the_settled_heuristic_replan_matches_the_proven_one_on_small_incidents() {
 // ---------------------------------------------------------------------------
 // The early stop after a loss (`SolveOptions::settled_before_loss`,
 // `stable::absorb_loss`), against brute-force enumeration of every plan.
-
-/// ln odds `a` at least threshold `t` with the key's tolerance (restated
-/// here from SPEC §3, not taken from the solver); −∞ is met by anything.
-fn reaches(a: f64, t: f64) -> bool {
-    t == f64::NEG_INFINITY || a >= t - 1e-10 * t.abs().max(1.0)
-}
-
-fn meets(k: &ObjectiveKey, thr: &[f64]) -> bool {
-    k.capped().iter().zip(thr).all(|(a, t)| reaches(*a, *t))
-}
-
-/// The rule's thresholds by enumeration (SPEC §3: entry by entry, the best
-/// over every plan meeting the thresholds before it, less the slack).
-fn brute_thresholds(keys: &[ObjectiveKey], slack: f64) -> Vec<f64> {
-    let n = keys.first().map_or(0, |k| k.capped().len());
-    let mut thr: Vec<f64> = Vec::new();
-    for e in 0..n {
-        let b = keys
-            .iter()
-            .filter(|k| meets(k, &thr))
-            .map(|k| k.capped()[e])
-            .fold(f64::NEG_INFINITY, f64::max);
-        thr.push(if b == f64::NEG_INFINITY {
-            b
-        } else {
-            b + (1.0 - slack).ln()
-        });
-    }
-    thr
-}
 
 /// The incident before and after its strongest placed unit is lost, the
 /// ground before being the proven recommendation (the settled plan).

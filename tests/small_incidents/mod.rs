@@ -1,6 +1,7 @@
 //! Small random incidents and their brute-force enumeration, shared by the
 //! tests that check the solver and its bounds against every feasible plan
-//! (`tests/solver_exact.rs`, `tests/solver_relax.rs`).
+//! (`tests/solver_exact.rs`, `tests/solver_relax.rs`,
+//! `tests/solver_replan.rs`, `tests/solver_progress.rs`).
 
 use oddsboard::model::{Incident, Placement, UnitStatus, parse_incident_str};
 use oddsboard::odds::evaluate;
@@ -226,4 +227,38 @@ pub fn all_plans(inc: &Incident) -> Vec<Placement> {
 pub fn key_of(inc: &Incident, p: &Placement) -> ObjectiveKey {
     let ln: Vec<f64> = evaluate(inc, p).iter().map(|t| t.ln_odds).collect();
     ObjectiveKey::from_ln_odds(inc, &ln)
+}
+
+/// ln odds `a` at least threshold `t` with the key's tolerance (restated
+/// from SPEC §3, not taken from the solver); −∞ is met by anything.
+#[allow(dead_code)] // used by the rule's tests only
+pub fn reaches(a: f64, t: f64) -> bool {
+    t == f64::NEG_INFINITY || a >= t - 1e-10 * t.abs().max(1.0)
+}
+
+/// Does `k`'s capped part meet every threshold of `thr`?
+#[allow(dead_code)] // used by the rule's tests only
+pub fn meets(k: &ObjectiveKey, thr: &[f64]) -> bool {
+    k.capped().iter().zip(thr).all(|(a, t)| reaches(*a, *t))
+}
+
+/// The rule's thresholds by enumeration (SPEC §3: entry by entry, the best
+/// over every plan meeting the thresholds before it, less the slack).
+#[allow(dead_code)] // used by the rule's tests only
+pub fn brute_thresholds(keys: &[ObjectiveKey], slack: f64) -> Vec<f64> {
+    let n = keys.first().map_or(0, |k| k.capped().len());
+    let mut thr: Vec<f64> = Vec::new();
+    for e in 0..n {
+        let b = keys
+            .iter()
+            .filter(|k| meets(k, &thr))
+            .map(|k| k.capped()[e])
+            .fold(f64::NEG_INFINITY, f64::max);
+        thr.push(if b == f64::NEG_INFINITY {
+            b
+        } else {
+            b + (1.0 - slack).ln()
+        });
+    }
+    thr
 }
