@@ -103,3 +103,50 @@ fn no_search_bound_on_a_short_budget() {
     }
     assert!(reports > 0);
 }
+
+/// A long first descent reports better plans while it goes (every 250 ms),
+/// not only when it ends: at least two better plans are reported between
+/// the first plan and the first report with the bound, and every better
+/// plan reported beats the one before it.
+#[test]
+fn a_long_descent_reports_while_it_goes() {
+    use oddsboard::model::generate::{GenerateSpec, generate};
+    use oddsboard::solver::ObjectiveKey;
+    let inc = generate(&GenerateSpec::new(300, 40, 5).seed(1)).expect("generated incident loads");
+    let options = SolveOptions {
+        budget: Duration::from_secs(3),
+        from_scratch: true,
+        threads: 1,
+        ..SolveOptions::default()
+    };
+    let cancel = AtomicBool::new(false);
+    let mut keys: Vec<ObjectiveKey> = Vec::new();
+    let mut before_bound = 0;
+    let mut descent_end = Duration::ZERO;
+    let mut bound_seen = false;
+    solve(&inc, &options, &cancel, &mut |p| {
+        bound_seen |= p.bound.is_some();
+        if p.improved {
+            if !bound_seen && p.iterations > 0 {
+                before_bound += 1;
+                descent_end = p.elapsed;
+            }
+            keys.push(p.key.clone());
+        }
+    })
+    .expect("solves");
+    // The descent takes about 2 s in a debug build here; a machine fast
+    // enough to end it within two report periods has nothing to report.
+    if descent_end >= Duration::from_millis(600) {
+        assert!(
+            before_bound >= 2,
+            "{before_bound} better plans reported during a first descent of {descent_end:?}"
+        );
+    }
+    for w in keys.windows(2) {
+        assert!(
+            w[1].better_than(&w[0]),
+            "a reported plan no better than the one before"
+        );
+    }
+}

@@ -746,6 +746,9 @@ fn perturb(ctx: &Ctx, state: &mut State, rng: &mut Xoshiro256PlusPlus) {
     }
 }
 
+/// How often a descent reports its plan while it goes.
+const DESCENT_REPORT_EVERY: std::time::Duration = std::time::Duration::from_millis(250);
+
 /// Local search from `start` until the budget ends, it is cancelled, or the
 /// limits say stop. The trajectory depends only on the seed and the limits,
 /// never on the clock, so a larger budget never gives a worse plan.
@@ -768,6 +771,11 @@ pub fn local_search(
     let mut memo = Certified::new(inc.tasks.len());
     // The memo of `best` (a local optimum once a descent ended there).
     let mut best_memo = memo.clone();
+    // The last key reported: a long descent (seconds on a large incident)
+    // reports its plan now and then, and every report is better than the
+    // one before it.
+    let mut told = best_key.clone();
+    let mut next_report = budget.elapsed() + DESCENT_REPORT_EVERY;
     loop {
         // Descend to a local optimum.
         loop {
@@ -779,7 +787,9 @@ pub fn local_search(
                 if key.better_than(&best_key) {
                     best = cut;
                     best_key = key;
-                    on_improve(&best, &best_key, iterations);
+                    if best_key.better_than(&told) {
+                        on_improve(&best, &best_key, iterations);
+                    }
                 }
                 return SearchOutcome {
                     best,
@@ -809,6 +819,16 @@ pub fn local_search(
                 apply_step(inc, &mut state, undo);
                 break;
             }
+            if budget.elapsed() >= next_report {
+                next_report = budget.elapsed() + DESCENT_REPORT_EVERY;
+                // Scored afresh, as the plans reported at a descent's end.
+                let now = State::new(ctx, &state.placement());
+                let key = now.key(ctx);
+                if key.better_than(&told) {
+                    on_improve(&now, &key, iterations);
+                    told = key;
+                }
+            }
         }
         // Rebuild the sums from scratch now and then so rounding never piles up.
         state = State::new(ctx, &state.placement());
@@ -818,7 +838,10 @@ pub fn local_search(
             best_key = key;
             best_memo = memo.clone();
             stale = 0;
-            on_improve(&best, &best_key, iterations);
+            if best_key.better_than(&told) {
+                on_improve(&best, &best_key, iterations);
+                told = best_key.clone();
+            }
         } else {
             stale += 1;
             // Restart from the best plan found so far.
