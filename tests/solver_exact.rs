@@ -104,6 +104,32 @@ fn check_incident(inc: &Incident, seed: u64) -> Result<(), TestCaseError> {
     Ok(())
 }
 
+/// The exact search for the best key under `floors`, from `start` as the
+/// incumbent, with no node limit (20 s at most).
+fn prove_from(
+    ctx: &Ctx,
+    floors: &[f64],
+    start: &Placement,
+) -> oddsboard::solver::exact::ExactOutcome {
+    let state = State::new(ctx, start);
+    let key = state.key(ctx);
+    let cancel = AtomicBool::new(false);
+    let budget = Budget::new(Duration::from_secs(20), &cancel);
+    branch_and_bound(
+        ctx,
+        Goal::Key,
+        floors,
+        Some(Incumbent {
+            state,
+            key,
+            cost: Disruption::default(),
+        }),
+        &budget,
+        u64::MAX,
+        &mut |_, _| {},
+    )
+}
+
 /// The exact search started from a poor incumbent (the plan the brute force
 /// ranks last, and one from the middle) must still reach the brute-force
 /// best: none of its cuts (task bounds, the cover cut with the levels a
@@ -126,23 +152,7 @@ fn check_from_poor_incumbent(inc: &Incident, seed: u64) -> Result<(), TestCaseEr
     }
     let ctx = Ctx::new(inc);
     for pick in [worst, plans.len() / 2] {
-        let state = State::new(&ctx, &plans[pick]);
-        let key = state.key(&ctx);
-        let cancel = AtomicBool::new(false);
-        let budget = Budget::new(Duration::from_secs(20), &cancel);
-        let out = branch_and_bound(
-            &ctx,
-            Goal::Key,
-            &[],
-            Some(Incumbent {
-                state,
-                key,
-                cost: Disruption::default(),
-            }),
-            &budget,
-            u64::MAX,
-            &mut |_, _| {},
-        );
+        let out = prove_from(&ctx, &[], &plans[pick]);
         prop_assert!(out.complete, "seed {seed}: search not complete");
         let found = out.best.expect("the incumbent at least");
         prop_assert_eq!(
@@ -212,23 +222,7 @@ fn check_floors_from_poor_incumbent(inc: &Incident, seed: u64) -> Result<(), Tes
                 .iter()
                 .reduce(|a, b| if a.1.better_than(&b.1) { b } else { a })
                 .expect("one plan");
-            let state = State::new(&ctx, &plans[poor.0]);
-            let key = state.key(&ctx);
-            let cancel = AtomicBool::new(false);
-            let budget = Budget::new(Duration::from_secs(20), &cancel);
-            let out = branch_and_bound(
-                &ctx,
-                Goal::Key,
-                &floors,
-                Some(Incumbent {
-                    state,
-                    key,
-                    cost: Disruption::default(),
-                }),
-                &budget,
-                u64::MAX,
-                &mut |_, _| {},
-            );
+            let out = prove_from(&ctx, &floors, &plans[poor.0]);
             prop_assert!(out.complete, "seed {seed}: search not complete");
             let found = out.best.expect("the incumbent at least");
             prop_assert_eq!(

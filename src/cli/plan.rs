@@ -535,13 +535,10 @@ fn bound_lines(bounds: &TierBounds) -> String {
 /// The one-line progress of a long plan: the worst odds of the first tier
 /// below its secure level (else of all tasks) and the work done.
 fn progress_words(incident: &Incident, p: &crate::solver::Progress) -> String {
-    let secure = p.key.worst_capped_ln_per_tier();
     let worst = p.key.worst_odds_per_tier();
-    let caps = crate::solver::key::ln_caps(incident);
-    let short = Tier::ALL.iter().find(|t| {
-        let i = t.index();
-        secure[i].is_some_and(|v| !crate::solver::key::reaches(v, caps[i]))
-    });
+    let short = p
+        .key
+        .first_short_tier(&crate::solver::key::ln_caps(incident));
     let head = match short {
         Some(t) => format!("worst {} {}", t.as_str(), pct_or_dash(worst[t.index()])),
         None => format!("every tier secure, worst {}", pct(p.key.min_odds())),
@@ -549,7 +546,7 @@ fn progress_words(incident: &Incident, p: &crate::solver::Progress) -> String {
     // The search's bound is of the first tier short when it was computed;
     // the search may have lifted that tier since.
     let bound = match p.bound.and_then(|b| Some((b.tier, b.upper_bound?))) {
-        Some((tier, u)) if short == Some(&tier) => format!(", at most {} possible", pct(u)),
+        Some((tier, u)) if short == Some(tier) => format!(", at most {} possible", pct(u)),
         Some((tier, u)) => format!(" ({} at most {} possible)", tier.as_str(), pct(u)),
         None => String::new(),
     };

@@ -62,21 +62,17 @@ pub fn plan_words(state: &AppState, max: usize) -> String {
                 (Some(w), None) => format!("re-plan: improving… best so far: worst {w}"),
                 (None, None) => "re-plan: improving… ground is best so far".to_string(),
             };
-            let candidates = [
+            let shortest = match worst(state) {
+                Some(w) => format!("re-plan: improving… worst {w} · {secs}"),
+                None => format!("re-plan: improving… ground is best · {secs}"),
+            };
+            [
                 format!("{head} · {work} · {secs}"),
                 format!("{head} · {secs}"),
-                match worst(state) {
-                    Some(w) => format!("re-plan: improving… worst {w} · {secs}"),
-                    None => format!("re-plan: improving… ground is best · {secs}"),
-                },
-            ];
-            let last = candidates.len() - 1;
-            candidates
-                .into_iter()
-                .enumerate()
-                .find(|(i, c)| *i == last || c.chars().count() <= max)
-                .map(|(_, c)| c)
-                .unwrap_or_default()
+            ]
+            .into_iter()
+            .find(|c| c.chars().count() <= max)
+            .unwrap_or(shortest)
         }
         PlanStatus::Settled {
             proven_optimal,

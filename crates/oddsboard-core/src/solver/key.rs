@@ -163,6 +163,15 @@ impl ObjectiveKey {
         self.worst.map(|w| w.map(f64::exp))
     }
 
+    /// The first tier whose worst odds are below its cap in `caps` (its
+    /// secure level with [`ln_caps`]), if any.
+    pub fn first_short_tier(&self, caps: &LnCaps) -> Option<Tier> {
+        let secure = self.worst_capped_ln_per_tier();
+        Tier::ALL
+            .into_iter()
+            .find(|t| secure[t.index()].is_some_and(|v| !reaches(v, caps[t.index()])))
+    }
+
     /// Worst capped ln odds per tier (the first entry of each tier's part).
     pub fn worst_capped_ln_per_tier(&self) -> [Option<f64>; 3] {
         let mut out = [None; 3];

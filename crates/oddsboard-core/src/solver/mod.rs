@@ -357,12 +357,7 @@ fn search_bound(
     {
         return None;
     }
-    let caps = key::ln_caps(inc);
-    let secure = key.worst_capped_ln_per_tier();
-    let short = (0..secure.len()).any(|i| secure[i].is_some_and(|v| !key::reaches(v, caps[i])));
-    if !short {
-        return None;
-    }
+    key.first_short_tier(&key::ln_caps(inc))?;
     let relax_options = relax::RelaxOptions {
         time_limit: options.budget.mul_f64(0.1).min(Duration::from_secs(1)),
         first_short_only: true,
@@ -391,21 +386,49 @@ fn absorbed_report(
         bound: None,
         improved: true,
     });
-    SolveReport {
-        moves: moves_between(&inc.placement, &placement),
-        disruption: stable::disruption(inc, &inc.placement, &placement),
-        thresholds: a.thresholds,
+    let stop = if budget.cancelled() {
+        StopReason::Cancelled
+    } else {
+        StopReason::LossAbsorbed
+    };
+    let done = Finished {
         placement,
         key,
-        proven_optimal: false,
-        upper_bound: final_bound(ctx, budget),
+        thresholds: a.thresholds,
+        proven: false,
         iterations: a.iterations,
-        elapsed: budget.elapsed(),
-        stop: if budget.cancelled() {
-            StopReason::Cancelled
-        } else {
-            StopReason::LossAbsorbed
-        },
+        stop,
+    };
+    done.report(ctx, budget)
+}
+
+/// What a solve settled on; [`Finished::report`] adds what follows from it.
+struct Finished {
+    placement: Placement,
+    key: ObjectiveKey,
+    thresholds: Vec<f64>,
+    proven: bool,
+    iterations: u64,
+    stop: StopReason,
+}
+
+impl Finished {
+    /// The report: moves and disruption from the ground, the final bound
+    /// and the time taken.
+    fn report(self, ctx: &Ctx, budget: &Budget) -> SolveReport {
+        let ground = &ctx.inc.placement;
+        SolveReport {
+            moves: moves_between(ground, &self.placement),
+            disruption: stable::disruption(ctx.inc, ground, &self.placement),
+            thresholds: self.thresholds,
+            placement: self.placement,
+            key: self.key,
+            proven_optimal: self.proven,
+            upper_bound: final_bound(ctx, budget),
+            iterations: self.iterations,
+            elapsed: budget.elapsed(),
+            stop: self.stop,
+        }
     }
 }
 
@@ -618,16 +641,13 @@ pub fn solve(
     } else {
         StopReason::NoImprovement
     };
-    Ok(SolveReport {
-        moves: moves_between(&inc.placement, &placement),
-        disruption: stable::disruption(inc, &inc.placement, &placement),
-        thresholds: out.thresholds,
+    let done = Finished {
         placement,
         key,
-        proven_optimal: proven,
-        upper_bound: final_bound(&ctx, &budget),
+        thresholds: out.thresholds,
+        proven,
         iterations,
-        elapsed: budget.elapsed(),
         stop,
-    })
+    };
+    Ok(done.report(&ctx, &budget))
 }
